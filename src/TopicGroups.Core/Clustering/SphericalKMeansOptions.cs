@@ -1,0 +1,69 @@
+namespace TopicGroups.Core.Clustering;
+
+/// <summary>Named defaults, quoted in the docs and the proto comments.</summary>
+public static class SphericalKMeansDefaults
+{
+    public const int RestartCount = 4;
+    public const int MaxIterations = 50;
+    public const double ConvergenceTolerance = 1e-5;
+    public const ulong Seed = 0;
+}
+
+public sealed record SphericalKMeansOptions
+{
+    /// <summary>Number of groups k; at least 1 and at most the number of rows.</summary>
+    public required int GroupCount { get; init; }
+
+    /// <value>The default is 0. The same seed gives the same result for any thread count.</value>
+    public ulong Seed { get; init; } = SphericalKMeansDefaults.Seed;
+
+    /// <value>The default is 4 restarts; the run with the highest objective is kept.</value>
+    public int RestartCount { get; init; } = SphericalKMeansDefaults.RestartCount;
+
+    /// <value>The default is 50 iterations per restart.</value>
+    public int MaxIterations { get; init; } = SphericalKMeansDefaults.MaxIterations;
+
+    /// <summary>
+    /// A run stops when no document changes group, or when the objective's relative gain in one
+    /// iteration falls below this value.
+    /// </summary>
+    /// <value>The default is 1e-5.</value>
+    public double ConvergenceTolerance { get; init; } = SphericalKMeansDefaults.ConvergenceTolerance;
+
+    /// <summary>When set, every run performs exactly MaxIterations iterations (for benchmarks).</summary>
+    public bool RunAllIterations { get; init; }
+
+    /// <value>The default is -1: all cores. Results do not depend on it.</value>
+    public int MaxDegreeOfParallelism { get; init; } = -1;
+
+    internal void Validate(int rows)
+    {
+        if (GroupCount < 1)
+        {
+            throw new ArgumentException($"GroupCount is {GroupCount}; it must be at least 1.", nameof(GroupCount));
+        }
+
+        if (GroupCount > rows)
+        {
+            throw new ArgumentException(
+                $"GroupCount is {GroupCount} but there are only {rows} rows; ask for at most {rows} groups.",
+                nameof(GroupCount));
+        }
+
+        if (RestartCount < 1)
+        {
+            throw new ArgumentException($"RestartCount is {RestartCount}; it must be at least 1.", nameof(RestartCount));
+        }
+
+        if (MaxIterations < 1)
+        {
+            throw new ArgumentException($"MaxIterations is {MaxIterations}; it must be at least 1.", nameof(MaxIterations));
+        }
+
+        if (!(ConvergenceTolerance >= 0))
+        {
+            throw new ArgumentException(
+                $"ConvergenceTolerance is {ConvergenceTolerance}; it must be zero or positive.", nameof(ConvergenceTolerance));
+        }
+    }
+}
