@@ -1,6 +1,7 @@
-var builder = WebApplication.CreateBuilder(args);
-builder.Services.AddGrpc();
-var app = builder.Build();
+using TopicGroups.Server;
+
+var app = ServerHost.Build(args);
 app.Run();
 
+/// <summary>Visible to the in-memory test host (WebApplicationFactory).</summary>
 public partial class Program;

@@ -1,0 +1,50 @@
+using System.Net;
+using Microsoft.AspNetCore.Server.Kestrel.Core;
+
+namespace TopicGroups.Server;
+
+/// <summary>Builds the gRPC host; used by Program (stand-alone server) and by the CLI (in-process server).</summary>
+public static class ServerHost
+{
+    /// <summary>Default port of the stand-alone server (configuration key TopicGroups:Port).</summary>
+    public const int DefaultPort = 5231;
+
+    /// <summary>
+    /// Builds the application. port 0 asks the OS for a free port; null reads TopicGroups:Port
+    /// (default 5231). Binds to loopback unless TopicGroups:ListenAnyAddress is true.
+    /// </summary>
+    public static WebApplication Build(string[] args, int? port = null)
+    {
+        var builder = WebApplication.CreateBuilder(args);
+        int chosenPort = port ?? builder.Configuration.GetValue("TopicGroups:Port", DefaultPort);
+        bool listenAnyAddress = builder.Configuration.GetValue("TopicGroups:ListenAnyAddress", false);
+        builder.WebHost.ConfigureKestrel(kestrel =>
+        {
+            // Cleartext HTTP/2 only: gRPC needs it, and Kestrel's default would be HTTP/1.1.
+            IPAddress address = listenAnyAddress ? IPAddress.Any : IPAddress.Loopback;
+            kestrel.Listen(address, chosenPort, listen => listen.Protocols = HttpProtocols.Http2);
+        });
+        ConfigureServices(builder);
+        var app = builder.Build();
+        MapEndpoints(app);
+        return app;
+    }
+
+    /// <summary>Starts a server on a free loopback port and returns it with its address.</summary>
+    public static async Task<(WebApplication App, Uri Address)> StartInProcessAsync(CancellationToken cancellationToken = default)
+    {
+        var app = Build(["--Logging:LogLevel:Default=Warning"], port: 0);
+        await app.StartAsync(cancellationToken);
+        string address = app.Urls.First();
+        return (app, new Uri(address));
+    }
+
+    internal static void ConfigureServices(WebApplicationBuilder builder)
+    {
+        builder.Services.AddGrpc();
+    }
+
+    internal static void MapEndpoints(WebApplication app)
+    {
+    }
+}
