@@ -1,3 +1,4 @@
+using System.Diagnostics;
 using TopicGroups.Core.Vectors;
 
 namespace TopicGroups.Core.Clustering;
@@ -8,7 +9,13 @@ namespace TopicGroups.Core.Clustering;
 /// </summary>
 public static class SphericalKMeans
 {
-    /// <summary>Clusters unit-length rows. The rows must already be normalised (see RowNormalisation).</summary>
+    /// <summary>
+    /// Clusters unit-length rows. The rows must already be normalised (see RowNormalisation).
+    /// Each restart seeds with k-means++ from its own generator (SplitMix64 stream r of Seed) and
+    /// refines with Lloyd iterations; the restart with the highest objective is kept (the earliest on a tie).
+    /// </summary>
+    /// <exception cref="ArgumentException">An option is out of range; the message names it.</exception>
+    /// <exception cref="OperationCanceledException">The token was cancelled (checked between iterations and between seeds).</exception>
     public static ClusteringResult Fit(
         EmbeddingMatrix unitRows,
         SphericalKMeansOptions options,
@@ -18,6 +25,132 @@ public static class SphericalKMeans
         ArgumentNullException.ThrowIfNull(unitRows);
         ArgumentNullException.ThrowIfNull(options);
         options.Validate(unitRows.Rows);
-        throw new NotImplementedException("REVIEW: being written (clustering helper).");
+
+        long fitStart = Stopwatch.GetTimestamp();
+        int n = unitRows.Rows;
+        int d = unitRows.Dimensions;
+        int k = options.GroupCount;
+        var ws = new ClusteringWorkspace(unitRows, k, options.ResolveWorkerCount());
+
+        // The kept run, copied out of the workspace whenever a restart beats it.
+        float[] keptCentroids = new float[k * d];
+        int[] keptAssignments = new int[n];
+        float[] keptSimilarities = new float[n];
+        int[] keptRunnerUps = new int[n];
+        float[] keptRunnerUpSimilarities = new float[n];
+        IterationStats[] keptHistory = [];
+        double keptObjective = double.NegativeInfinity;
+        int keptRestart = -1;
+        bool keptConverged = false;
+
+        double[] restartObjectives = new double[options.RestartCount];
+        long seedingTicks = 0;
+        var history = new List<IterationStats>(options.MaxIterations);
+
+        for (int restart = 0; restart < options.RestartCount; restart++)
+        {
+            cancellationToken.ThrowIfCancellationRequested();
+            SplitMix64 random = SplitMix64.ForStream(options.Seed, restart);
+
+            long seedingStart = Stopwatch.GetTimestamp();
+            double previousObjective = KMeansPlusPlusSeeding.Seed(ws, ref random, cancellationToken);
+            seedingTicks += Stopwatch.GetTimestamp() - seedingStart;
+            progress?.Invoke(new ClusteringProgress(ClusteringStage.Seeding, restart, 0, previousObjective));
+
+            (double objective, bool converged) = Refine(ws, options, restart, previousObjective, history, progress, cancellationToken);
+            restartObjectives[restart] = objective;
+
+            if (objective > keptObjective)
+            {
+                keptObjective = objective;
+                keptRestart = restart;
+                keptConverged = converged;
+                keptHistory = history.ToArray();
+                ws.Centroids.CopyTo(keptCentroids, 0);
+                ws.Assignments.CopyTo(keptAssignments, 0);
+                ws.Similarities.CopyTo(keptSimilarities, 0);
+                ws.RunnerUpGroups.CopyTo(keptRunnerUps, 0);
+                ws.RunnerUpSimilarities.CopyTo(keptRunnerUpSimilarities, 0);
+            }
+        }
+
+        return new ClusteringResult
+        {
+            Centroids = keptCentroids,
+            GroupCount = k,
+            Dimensions = d,
+            Assignments = keptAssignments,
+            Similarities = keptSimilarities,
+            RunnerUpGroups = keptRunnerUps,
+            RunnerUpSimilarities = keptRunnerUpSimilarities,
+            Objective = keptObjective,
+            Iterations = keptHistory.Length,
+            Converged = keptConverged,
+            KeptRestart = keptRestart,
+            RestartCount = options.RestartCount,
+            IterationHistory = keptHistory,
+            RestartObjectives = restartObjectives,
+            SeedingTime = Stopwatch.GetElapsedTime(0, seedingTicks),
+            TotalTime = Stopwatch.GetElapsedTime(fitStart),
+        };
+    }
+
+    /// <summary>
+    /// Lloyd iterations from the seeds in workspace.Centroids. On return the workspace holds this run's
+    /// centroids, assignments (no group empty) and each row's cosine and runner-up for those centroids.
+    /// </summary>
+    private static (double Objective, bool Converged) Refine(
+        ClusteringWorkspace ws,
+        SphericalKMeansOptions options,
+        int restart,
+        double seedingObjective,
+        List<IterationStats> history,
+        Action<ClusteringProgress>? progress,
+        CancellationToken cancellationToken)
+    {
+        history.Clear();
+        Array.Fill(ws.Assignments, -1);
+        double previousObjective = seedingObjective;
+        double objective = seedingObjective;
+        bool converged = false;
+        bool scoresAreCurrent = false;
+
+        for (int iteration = 1; iteration <= options.MaxIterations; iteration++)
+        {
+            cancellationToken.ThrowIfCancellationRequested();
+            long iterationStart = Stopwatch.GetTimestamp();
+
+            (int reassigned, _) = GroupAssignment.AssignAll(ws);
+            CentroidUpdate.CountSizes(ws);
+            int repaired = EmptyGroupRepair.Repair(ws);
+            objective = CentroidUpdate.Update(ws);
+
+            history.Add(new IterationStats(iteration, objective, reassigned, Stopwatch.GetElapsedTime(iterationStart)));
+            progress?.Invoke(new ClusteringProgress(ClusteringStage.Refining, restart, iteration, objective));
+
+            // With no change and no repair the new centroids equal the ones just scored against, bit for
+            // bit (same members, same summation order), so the recorded cosines are already current.
+            scoresAreCurrent = reassigned == 0 && repaired == 0;
+            if (options.RunAllIterations)
+            {
+                previousObjective = objective;
+                continue;
+            }
+
+            double relativeGain = (objective - previousObjective) / Math.Max(Math.Abs(previousObjective), double.Epsilon);
+            previousObjective = objective;
+            if ((reassigned == 0 && repaired == 0) || relativeGain < options.ConvergenceTolerance)
+            {
+                converged = true;
+                break;
+            }
+        }
+
+        if (!scoresAreCurrent)
+        {
+            GroupAssignment.ScoreAssigned(ws);
+        }
+
+        return (objective, converged);
     }
 }

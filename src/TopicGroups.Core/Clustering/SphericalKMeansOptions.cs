@@ -60,10 +60,20 @@ public sealed record SphericalKMeansOptions
             throw new ArgumentException($"MaxIterations is {MaxIterations}; it must be at least 1.", nameof(MaxIterations));
         }
 
+        if (MaxDegreeOfParallelism == 0 || MaxDegreeOfParallelism < -1)
+        {
+            throw new ArgumentException(
+                $"MaxDegreeOfParallelism is {MaxDegreeOfParallelism}; use -1 for all cores or a positive thread count.",
+                nameof(MaxDegreeOfParallelism));
+        }
+
         if (!(ConvergenceTolerance >= 0))
         {
             throw new ArgumentException(
                 $"ConvergenceTolerance is {ConvergenceTolerance}; it must be zero or positive.", nameof(ConvergenceTolerance));
         }
     }
+
+    /// <summary>Threads to use: MaxDegreeOfParallelism, or every processor when it is -1.</summary>
+    internal int ResolveWorkerCount() => MaxDegreeOfParallelism == -1 ? Environment.ProcessorCount : MaxDegreeOfParallelism;
 }

@@ -1,0 +1,98 @@
+using TopicGroups.Core.Vectors;
+
+namespace TopicGroups.Core.Clustering;
+
+/// <summary>
+/// Every buffer one fit needs, allocated once and reused by all restarts and iterations.
+/// Shapes: rows n × d (the caller's matrix, not copied), centroids k × d, per-row arrays of length n.
+/// </summary>
+internal sealed class ClusteringWorkspace
+{
+    public ClusteringWorkspace(EmbeddingMatrix unitRows, int groupCount, int workerCount)
+    {
+        Rows = unitRows.Values;
+        N = unitRows.Rows;
+        D = unitRows.Dimensions;
+        K = groupCount;
+        Blocks = new RowBlocks(N, workerCount);
+
+        Centroids = new float[K * D];
+        Assignments = new int[N];
+        Similarities = new float[N];
+        RunnerUpGroups = new int[N];
+        RunnerUpSimilarities = new float[N];
+
+        BlockObjective = new double[Blocks.Count];
+        BlockReassigned = new int[Blocks.Count];
+        BlockScratch = new float[workerCount][];
+        for (int w = 0; w < workerCount; w++)
+        {
+            BlockScratch[w] = new float[RowBlocks.BlockRows * K];
+        }
+
+        GroupSizes = new int[K];
+        MemberStart = new int[K + 1];
+        MemberOrder = new int[N];
+        MemberCursor = new int[K];
+        Sums = new double[K * D];
+        SumNorms = new double[K];
+
+        MinDistance = new float[N];
+        IsSeed = new bool[N];
+    }
+
+    public float[] Rows { get; }
+
+    public int N { get; }
+
+    public int D { get; }
+
+    public int K { get; }
+
+    public RowBlocks Blocks { get; }
+
+    /// <summary>k × d, row-major, unit rows once a run has started.</summary>
+    public float[] Centroids { get; }
+
+    public int[] Assignments { get; }
+
+    /// <summary>Cosine of each row to its assigned centroid, as of the last scoring pass.</summary>
+    public float[] Similarities { get; }
+
+    public int[] RunnerUpGroups { get; }
+
+    public float[] RunnerUpSimilarities { get; }
+
+    /// <summary>Per block: sum of the rows' best cosines (an objective partial sum, reduced in block order).</summary>
+    public double[] BlockObjective { get; }
+
+    /// <summary>Per block: rows whose group changed in the last assignment pass.</summary>
+    public int[] BlockReassigned { get; }
+
+    /// <summary>Per worker: BlockRows × k scores.</summary>
+    public float[][] BlockScratch { get; }
+
+    public int[] GroupSizes { get; }
+
+    /// <summary>Members of group c are MemberOrder[MemberStart[c] .. MemberStart[c + 1]), ascending.</summary>
+    public int[] MemberStart { get; }
+
+    public int[] MemberOrder { get; }
+
+    public int[] MemberCursor { get; }
+
+    /// <summary>k × d, float64 sums of each group's member rows.</summary>
+    public double[] Sums { get; }
+
+    /// <summary>‖sum of group c‖: the sum over c is n × objective (Dhillon &amp; Modha, 2001, eq. 7).</summary>
+    public double[] SumNorms { get; }
+
+    /// <summary>Seeding: 1 − max cosine of each row to the seeds chosen so far.</summary>
+    public float[] MinDistance { get; }
+
+    public bool[] IsSeed { get; }
+
+    public ReadOnlySpan<float> Row(int i) => Rows.AsSpan(i * D, D);
+
+    public Span<float> Centroid(int c) => Centroids.AsSpan(c * D, D);
+}
