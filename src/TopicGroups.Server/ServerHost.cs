@@ -1,5 +1,10 @@
 using System.Net;
+using Grpc.AspNetCore.Server;
 using Microsoft.AspNetCore.Server.Kestrel.Core;
+using Microsoft.Extensions.Options;
+using TopicGroups.Core.Grouping;
+using TopicGroups.Server.Services;
+using TopicGroups.Server.Validation;
 
 namespace TopicGroups.Server;
 
@@ -41,10 +46,29 @@ public static class ServerHost
 
     internal static void ConfigureServices(WebApplicationBuilder builder)
     {
-        builder.Services.AddGrpc();
+        IServiceCollection services = builder.Services;
+        services.AddOptions<TopicGroupsLimits>()
+            .BindConfiguration(TopicGroupsLimits.SectionName)
+            .PostConfigure(limits => limits.Validate())
+            .ValidateOnStart();
+
+        services.AddGrpc();
+
+        // Read through options (not at build time) so test hosts and later configuration sources apply.
+        services.AddOptions<GrpcServiceOptions>()
+            .Configure<IOptions<TopicGroupsLimits>>((grpc, limits) => grpc.MaxReceiveMessageSize = limits.Value.MaxMessageBytes);
+        services.AddGrpcHealthChecks();
+        services.AddGrpcReflection();
+        services.AddMetrics();
+
+        services.AddSingleton<GroupingPipeline>();
+        services.AddSingleton<GroupingRunner>();
     }
 
     internal static void MapEndpoints(WebApplication app)
     {
+        app.MapGrpcService<TopicGroupsGrpcService>();
+        app.MapGrpcHealthChecksService();
+        app.MapGrpcReflectionService();
     }
 }

@@ -1,0 +1,55 @@
+using System.Diagnostics.Metrics;
+using Grpc.Core;
+using TopicGroups.Core.Grouping;
+
+namespace TopicGroups.Server.Services;
+
+/// <summary>
+/// Runs the pipeline off the request thread and turns the call's cancellation into the right status:
+/// DEADLINE_EXCEEDED when the caller's deadline passed, CANCELLED when the caller gave up.
+/// </summary>
+internal sealed class GroupingRunner
+{
+    public const string MeterName = "TopicGroups.Server";
+    public const string ActiveRunsInstrument = "topicgroups.grouping.active_runs";
+
+    private readonly GroupingPipeline _pipeline;
+    private readonly UpDownCounter<int> _activeRuns;
+
+    public GroupingRunner(GroupingPipeline pipeline, IMeterFactory meterFactory)
+    {
+        _pipeline = pipeline;
+        Meter meter = meterFactory.Create(MeterName);
+        _activeRuns = meter.CreateUpDownCounter<int>(
+            ActiveRunsInstrument,
+            unit: "{run}",
+            description: "Groupings whose computation is running now; it drops when a cancelled run has really stopped.");
+    }
+
+    public async Task<GroupingResult> RunAsync(
+        GroupingInput input,
+        Action<GroupingProgress>? progress,
+        ServerCallContext context)
+    {
+        CancellationToken cancellationToken = context.CancellationToken;
+        _activeRuns.Add(1);
+        try
+        {
+            // The awaited task ends only when Run returns or throws, so the counter tracks real CPU work.
+            return await Task.Run(() => _pipeline.Run(input, progress, cancellationToken), cancellationToken);
+        }
+        catch (OperationCanceledException) when (cancellationToken.IsCancellationRequested)
+        {
+            throw context.Deadline <= DateTime.UtcNow
+                ? new RpcException(new Status(
+                    StatusCode.DeadlineExceeded,
+                    "The grouping did not finish before the call's deadline and was stopped; allow a longer deadline, "
+                    + "or lower options.restart_count or options.max_iterations."))
+                : new RpcException(new Status(StatusCode.Cancelled, "The caller cancelled the call; the grouping was stopped."));
+        }
+        finally
+        {
+            _activeRuns.Add(-1);
+        }
+    }
+}

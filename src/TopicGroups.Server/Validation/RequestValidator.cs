@@ -1,0 +1,314 @@
+using Google.Protobuf;
+using Google.Protobuf.Collections;
+using Google.Rpc;
+using TopicGroups.Core.Clustering;
+using TopicGroups.Core.Grouping;
+using TopicGroups.Core.Terms;
+using TopicGroups.Core.Vectors;
+using TopicGroups.Server.Mapping;
+using Proto = TopicGroups.Protos.V1;
+
+namespace TopicGroups.Server.Validation;
+
+/// <summary>
+/// Turns a request (one message, or the chunks of a stream) into a <see cref="GroupingInput"/>: checks
+/// every document and option, then copies the embeddings once into one row-major float[].
+/// Bad input throws INVALID_ARGUMENT with up to <see cref="MaxViolations"/> field violations; input over a
+/// configured size limit throws RESOURCE_EXHAUSTED at once, before more of it is held.
+/// </summary>
+internal sealed class RequestValidator
+{
+    /// <summary>Violations collected before the request is rejected; enough to fix a batch in one round.</summary>
+    public const int MaxViolations = 20;
+
+    private readonly TopicGroupsLimits _limits;
+    private readonly List<BadRequest.Types.FieldViolation> _violations = [];
+    private readonly List<Proto.Document> _documents = [];
+    private readonly Dictionary<string, int> _indexById = new(StringComparer.Ordinal);
+    private Proto.GroupingOptions? _options;
+    private int _dimensions;                // of the first document with an embedding; 0 until one arrives
+    private int _dimensionsSource = -1;     // index of that document, quoted in mismatch messages
+    private long _embeddingValues;
+    private int _nextChunkIndex;
+
+    public RequestValidator(TopicGroupsLimits limits)
+    {
+        ArgumentNullException.ThrowIfNull(limits);
+        _limits = limits;
+    }
+
+    /// <summary>Documents accepted so far (across chunks).</summary>
+    public int DocumentCount => _documents.Count;
+
+    /// <summary>Checks a unary request and builds the Core input.</summary>
+    public static GroupingInput ToInput(Proto.GroupDocumentsRequest request, TopicGroupsLimits limits)
+    {
+        var validator = new RequestValidator(limits) { _options = request.Options };
+        validator.AddDocuments(request.Documents, chunkIndex: null);
+        return validator.ToInput();
+    }
+
+    /// <summary>Checks one chunk of a stream: its index, its options (first chunk only) and its documents.</summary>
+    public void AddChunk(Proto.StreamGroupDocumentsRequest chunk)
+    {
+        if (chunk.ChunkIndex != _nextChunkIndex)
+        {
+            throw StatusErrors.InvalidArgument(
+                "chunk_index",
+                $"is {chunk.ChunkIndex} but chunk {_nextChunkIndex} was expected next; number the chunks 0, 1, 2, ... "
+                + "in sending order and send each exactly once.");
+        }
+
+        if (_nextChunkIndex == 0)
+        {
+            _options = chunk.Options;
+        }
+        else if (chunk.Options is not null)
+        {
+            AddViolation(
+                "options",
+                $"is set on chunk {chunk.ChunkIndex}; send the options with chunk 0 only and leave them unset on later chunks.");
+        }
+
+        _nextChunkIndex++;
+        AddDocuments(chunk.Documents, chunk.ChunkIndex);
+    }
+
+    /// <summary>Finishes the checks that need the whole batch, then copies the embeddings once.</summary>
+    public GroupingInput ToInput()
+    {
+        int n = _documents.Count;
+        if (n == 0)
+        {
+            AddViolation("documents", "is empty; send at least one document (an id, a text and an embedding).");
+        }
+
+        CheckOptions(n);
+        ThrowIfInvalid();
+
+        int d = _dimensions;
+        float[] values = new float[checked(n * d)];
+        string[] ids = new string[n];
+        string[] texts = new string[n];
+        for (int i = 0; i < n; i++)
+        {
+            Proto.Document document = _documents[i];
+            UnsafeCollectionOperations.AsSpan(document.Embedding).CopyTo(values.AsSpan(i * d, d));
+            ids[i] = document.Id;
+            texts[i] = document.Text;
+        }
+
+        _documents.Clear(); // the proto copies of the embeddings can go now
+        var embeddings = new EmbeddingMatrix(values, n, d);
+
+        // The Core's own test is the last word: it also catches lengths that overflow float32.
+        if (RowNormalisation.FindInvalidRow(embeddings, out string? reason) is int row)
+        {
+            throw StatusErrors.InvalidArgument(
+                $"documents[{row}].embedding",
+                $"cannot be scaled to unit length: it {reason}. Send the document's real embedding or leave the document out.");
+        }
+
+        return new GroupingInput(ids, texts, embeddings, OptionsMapper.ToCore(_options!));
+    }
+
+    private void AddDocuments(RepeatedField<Proto.Document> documents, int? chunkIndex)
+    {
+        if ((long)_documents.Count + documents.Count > _limits.MaxDocuments)
+        {
+            throw StatusErrors.ResourceExhausted(
+                "documents",
+                $"has more than {_limits.MaxDocuments} documents, the most this server groups in one batch "
+                + "(TopicGroups:Limits:MaxDocuments); split the batch into smaller ones.");
+        }
+
+        foreach (Proto.Document document in documents)
+        {
+            int index = _documents.Count;
+            _documents.Add(document);
+            CheckId(document.Id, index);
+            CheckText(document.Text, index);
+            CheckEmbedding(document.Embedding, index, chunkIndex);
+            if (_violations.Count >= MaxViolations)
+            {
+                ThrowIfInvalid();
+            }
+        }
+    }
+
+    private void CheckId(string id, int index)
+    {
+        string field = $"documents[{index}].id";
+        if (id.Length == 0)
+        {
+            AddViolation(field, "is empty; give every document an id of 1-256 characters, unique within the batch.");
+        }
+        else if (id.Length > TopicGroupsLimitsDefaults.MaxIdLength)
+        {
+            AddViolation(
+                field,
+                $"has {id.Length} characters; an id may have at most {TopicGroupsLimitsDefaults.MaxIdLength}. "
+                + "Use a shorter key and keep long names in the text.");
+        }
+        else if (!_indexById.TryAdd(id, index))
+        {
+            AddViolation(
+                field,
+                $"\"{id}\" is also the id of documents[{_indexById[id]}]; ids must be unique within a batch.");
+        }
+    }
+
+    private void CheckText(string text, int index)
+    {
+        if (text.Length > _limits.MaxTextLength)
+        {
+            throw StatusErrors.ResourceExhausted(
+                $"documents[{index}].text",
+                $"has {text.Length} characters; this server accepts texts of at most {_limits.MaxTextLength} "
+                + "(TopicGroups:Limits:MaxTextLength). Send the part the embedding was made from.");
+        }
+    }
+
+    private void CheckEmbedding(RepeatedField<float> embedding, int index, int? chunkIndex)
+    {
+        string field = $"documents[{index}].embedding";
+        int count = embedding.Count;
+        if (count == 0)
+        {
+            AddViolation(
+                field,
+                _dimensions > 0
+                    ? $"is empty; send the embedding the text was made from ({_dimensions} values, like documents[{_dimensionsSource}])."
+                    : "is empty; every document needs the embedding its text was made from.");
+            return;
+        }
+
+        if (count > _limits.MaxDimensions)
+        {
+            throw StatusErrors.ResourceExhausted(
+                field,
+                $"has {count} values; this server accepts embeddings of at most {_limits.MaxDimensions} dimensions "
+                + "(TopicGroups:Limits:MaxDimensions). Use an embedding model with fewer dimensions.");
+        }
+
+        if (_dimensions == 0)
+        {
+            _dimensions = count;
+            _dimensionsSource = index;
+        }
+        else if (count != _dimensions)
+        {
+            AddViolation(
+                field,
+                $"has {count} values but documents[{_dimensionsSource}].embedding has {_dimensions}; every embedding "
+                + "of a batch must come from the same model and have the same number of values.");
+            return;
+        }
+
+        _embeddingValues += count;
+        if (_embeddingValues > _limits.MaxEmbeddingValues)
+        {
+            string where = chunkIndex is int chunk ? $" (reached in chunk {chunk})" : string.Empty;
+            throw StatusErrors.ResourceExhausted(
+                "documents",
+                $"hold more than {_limits.MaxEmbeddingValues} embedding values in total by documents[{index}]{where}, "
+                + $"{_limits.MaxEmbeddingValues * sizeof(float) / (1024 * 1024)} MiB as float32: the most this server holds "
+                + "for one batch (TopicGroups:Limits:MaxEmbeddingValues). Split the batch into smaller ones.");
+        }
+
+        CheckValues(UnsafeCollectionOperations.AsSpan(embedding), field);
+    }
+
+    private void CheckValues(ReadOnlySpan<float> values, string field)
+    {
+        bool anyNonZero = false;
+        for (int j = 0; j < values.Length; j++)
+        {
+            float value = values[j];
+            if (!float.IsFinite(value))
+            {
+                string name = float.IsNaN(value) ? "NaN" : value > 0 ? "+Infinity" : "-Infinity";
+                AddViolation(
+                    field,
+                    $"has {name} at position {j}; every value must be a finite number (check the embedding model's output).");
+                return;
+            }
+
+            anyNonZero |= value != 0f;
+        }
+
+        if (!anyNonZero)
+        {
+            AddViolation(
+                field,
+                "is all zeros, so it has no direction to compare; send the document's real embedding or leave the document out.");
+        }
+    }
+
+    private void CheckOptions(int documentCount)
+    {
+        if (_options is null)
+        {
+            AddViolation(
+                "options",
+                $"is missing; set at least options.group_count (1 to {Math.Max(documentCount, 1)}, the number of documents).");
+            return;
+        }
+
+        int groups = _options.GroupCount;
+        const string groupField = "options.group_count";
+        if (groups < 1)
+        {
+            AddViolation(
+                groupField,
+                $"is {groups}; set it to the number of groups wanted, from 1 to {Math.Max(documentCount, 1)} (the number of documents).");
+        }
+        else if (groups > _limits.MaxGroupCount)
+        {
+            AddViolation(
+                groupField,
+                $"is {groups}; this server forms at most {_limits.MaxGroupCount} groups per batch (TopicGroups:Limits:MaxGroupCount).");
+        }
+        else if (documentCount > 0 && groups > documentCount)
+        {
+            AddViolation(
+                groupField,
+                $"is {groups} but the batch has only {documentCount} documents; ask for at most {documentCount} groups.");
+        }
+
+        CheckCount("options.restart_count", _options.RestartCount, SphericalKMeansDefaults.RestartCount, _limits.MaxRestartCount, nameof(TopicGroupsLimits.MaxRestartCount));
+        CheckCount("options.max_iterations", _options.MaxIterations, SphericalKMeansDefaults.MaxIterations, _limits.MaxIterations, nameof(TopicGroupsLimits.MaxIterations));
+        CheckCount("options.term_count", _options.TermCount, GroupTermsDefaults.TermCount, _limits.MaxTermCount, nameof(TopicGroupsLimits.MaxTermCount));
+        CheckCount("options.example_count", _options.ExampleCount, GroupingDefaults.ExampleCount, _limits.MaxExampleCount, nameof(TopicGroupsLimits.MaxExampleCount));
+    }
+
+    private void CheckCount(string field, int value, int serverDefault, int max, string limitName)
+    {
+        if (value < 0)
+        {
+            AddViolation(field, $"is {value}; use 0 for the server default ({serverDefault}) or a positive number up to {max}.");
+        }
+        else if (value > max)
+        {
+            AddViolation(
+                field,
+                $"is {value}; this server allows at most {max} (TopicGroups:Limits:{limitName}). Use 0 for the server default ({serverDefault}).");
+        }
+    }
+
+    private void AddViolation(string field, string description)
+    {
+        if (_violations.Count < MaxViolations)
+        {
+            _violations.Add(new BadRequest.Types.FieldViolation { Field = field, Description = description });
+        }
+    }
+
+    private void ThrowIfInvalid()
+    {
+        if (_violations.Count > 0)
+        {
+            throw StatusErrors.InvalidArgument(_violations);
+        }
+    }
+}
