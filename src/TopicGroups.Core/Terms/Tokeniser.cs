@@ -1,0 +1,155 @@
+using System.Globalization;
+using System.Text;
+
+namespace TopicGroups.Core.Terms;
+
+/// <summary>
+/// Splits text into lower-cased word tokens. The rule, in full:
+/// <list type="number">
+/// <item>A token is a maximal run of Unicode letters (categories Lu, Ll, Lt, Lm, Lo), decimal digits (Nd)
+/// and combining marks (Mn, Mc, Me, so accents written as separate code points and the vowel signs of
+/// Indic scripts stay inside their word). Everything else (spaces, punctuation, symbols, emoji, other
+/// numerals, unpaired surrogates) separates tokens, so "don't" gives "don" and "t", and "e-mail" gives
+/// "e" and "mail".</item>
+/// <item>Each code point is lower-cased with the invariant culture's simple case mapping.</item>
+/// <item>A token is dropped when it has fewer than two letters or digits (a single character), when it
+/// has no letter at all (pure digits such as order numbers and years), or when it is longer than
+/// <see cref="MaximumTokenLength"/> UTF-16 units (hashes, encoded blobs).</item>
+/// </list>
+/// Text is not Unicode-normalised, and scripts written without spaces between words give one token per run.
+/// Stop words are removed later, by the vocabulary (<see cref="TermCorpus"/>).
+/// </summary>
+internal static class Tokeniser
+{
+    public const int MaximumTokenLength = 64;
+
+    /// <summary>Reads the tokens of <paramref name="text"/>; each is written lower-cased into <paramref name="buffer"/>.</summary>
+    /// <param name="buffer">Scratch space of at least <see cref="MaximumTokenLength"/> characters, reused for every token.</param>
+    public static TokenReader Read(ReadOnlySpan<char> text, Span<char> buffer)
+    {
+        if (buffer.Length < MaximumTokenLength)
+        {
+            throw new ArgumentException($"The buffer has {buffer.Length} characters; it needs {MaximumTokenLength}.", nameof(buffer));
+        }
+
+        return new TokenReader(text, buffer[..MaximumTokenLength]);
+    }
+
+    /// <summary>All tokens of <paramref name="text"/> as strings (allocates; for tests and small inputs).</summary>
+    public static List<string> Tokenise(string text)
+    {
+        ArgumentNullException.ThrowIfNull(text);
+        var tokens = new List<string>();
+        Span<char> buffer = stackalloc char[MaximumTokenLength];
+        TokenReader reader = Read(text, buffer);
+        while (reader.MoveNext())
+        {
+            tokens.Add(reader.Current.ToString());
+        }
+
+        return tokens;
+    }
+}
+
+/// <summary>Walks one text token by token without allocating; see <see cref="Tokeniser"/> for the rule.</summary>
+internal ref struct TokenReader
+{
+    private readonly ReadOnlySpan<char> _text;
+    private readonly Span<char> _buffer;
+    private int _position;
+    private int _length;
+
+    internal TokenReader(ReadOnlySpan<char> text, Span<char> buffer)
+    {
+        _text = text;
+        _buffer = buffer;
+    }
+
+    /// <summary>The current token, lower-cased; valid until the next call to <see cref="MoveNext"/>.</summary>
+    public readonly ReadOnlySpan<char> Current => _buffer[.._length];
+
+    public bool MoveNext()
+    {
+        ReadOnlySpan<char> text = _text;
+        Span<char> buffer = _buffer;
+        int position = _position;
+        while (position < text.Length)
+        {
+            int written = 0;
+            int lettersAndDigits = 0;
+            bool hasLetter = false;
+            bool tooLong = false;
+            while (position < text.Length)
+            {
+                char c = text[position];
+                if (c < 0x80)
+                {
+                    // ASCII fast path: letters, digits, nothing else.
+                    bool isUpper = (uint)(c - 'A') <= 'Z' - 'A';
+                    bool isLetter = isUpper || (uint)(c - 'a') <= 'z' - 'a';
+                    if (!isLetter && (uint)(c - '0') > 9)
+                    {
+                        break;
+                    }
+
+                    position++;
+                    lettersAndDigits++;
+                    hasLetter |= isLetter;
+                    if (written < buffer.Length)
+                    {
+                        buffer[written++] = isUpper ? (char)(c | 0x20) : c;
+                    }
+                    else
+                    {
+                        tooLong = true;
+                    }
+
+                    continue;
+                }
+
+                Rune.DecodeFromUtf16(text[position..], out Rune rune, out int consumed);
+                UnicodeCategory category = Rune.GetUnicodeCategory(rune);
+                // UppercaseLetter (0) .. OtherLetter (4), then NonSpacingMark (5), SpacingCombiningMark (6),
+                // EnclosingMark (7), DecimalDigitNumber (8): the enum orders exactly the categories a word holds.
+                if (category > UnicodeCategory.DecimalDigitNumber)
+                {
+                    break;
+                }
+
+                position += consumed;
+                bool letter = category <= UnicodeCategory.OtherLetter;
+                if (letter || category == UnicodeCategory.DecimalDigitNumber)
+                {
+                    lettersAndDigits++;
+                    hasLetter |= letter;
+                }
+
+                if (!tooLong && Rune.ToLowerInvariant(rune).TryEncodeToUtf16(buffer[written..], out int encoded))
+                {
+                    written += encoded;
+                }
+                else
+                {
+                    tooLong = true;
+                }
+            }
+
+            if (lettersAndDigits >= 2 && hasLetter && !tooLong)
+            {
+                _position = position;
+                _length = written;
+                return true;
+            }
+
+            if (lettersAndDigits == 0 && written == 0 && position < text.Length)
+            {
+                // Not inside a word: step over one separator (a whole surrogate pair if it is one).
+                position += char.IsHighSurrogate(text[position]) && position + 1 < text.Length && char.IsLowSurrogate(text[position + 1]) ? 2 : 1;
+            }
+        }
+
+        _position = position;
+        _length = 0;
+        return false;
+    }
+}
