@@ -1,0 +1,219 @@
+using Grpc.Core;
+using Grpc.Health.V1;
+using Grpc.Net.Client;
+using Polly;
+using Polly.Retry;
+using TopicGroups.Protos.V1;
+
+namespace TopicGroups.Client;
+
+/// <summary>
+/// Typed client of the TopicGroups service. Sends small batches in one message and large ones as a stream of
+/// chunks, applies a deadline, and retries calls that fail with UNAVAILABLE. Thread-safe.
+/// </summary>
+public sealed class TopicGroupsClient
+{
+    // A health check answers at once or not at all; it does not need the grouping's long deadline.
+    private static readonly TimeSpan HealthCheckTimeout = TimeSpan.FromSeconds(10);
+
+    // Bytes a document adds to its repeated field beyond its own size: a tag and a length prefix of at most
+    // 5 bytes (a varint of a 32-bit length). Used to keep chunks under ChunkSizeBytes.
+    private const int FieldOverheadBytes = 6;
+
+    private readonly TopicGroupsService.TopicGroupsServiceClient _client;
+    private readonly Health.HealthClient _health;
+    private readonly TopicGroupsClientOptions _options;
+    private readonly ResiliencePipeline _retry;
+
+    /// <summary>Creates a client on a channel you own (and dispose).</summary>
+    /// <remarks>
+    /// Replies list every document: for large batches create the channel with
+    /// GrpcChannelOptions.MaxReceiveMessageSize set to <see cref="TopicGroupsClientOptions.MaxResponseBytes"/>.
+    /// </remarks>
+#pragma warning disable RS0027 // The two constructors differ in their first parameter's type, so no call can become ambiguous.
+    public TopicGroupsClient(GrpcChannel channel, TopicGroupsClientOptions? options = null)
+        : this(new TopicGroupsService.TopicGroupsServiceClient(channel ?? throw new ArgumentNullException(nameof(channel))), options)
+    {
+    }
+#pragma warning restore RS0027
+
+    /// <summary>Creates a client on a generated client, e.g. one from the gRPC client factory (see AddTopicGroupsClient).</summary>
+    public TopicGroupsClient(TopicGroupsService.TopicGroupsServiceClient client, TopicGroupsClientOptions? options)
+    {
+        ArgumentNullException.ThrowIfNull(client);
+        _client = client;
+        _health = new Health.HealthClient(client.SharedCallInvoker);
+        _options = (options ?? new TopicGroupsClientOptions()).Validated();
+        _retry = BuildRetry(_options);
+    }
+
+    /// <summary>
+    /// Groups documents into options.GroupCount themes. The batch travels in one message when its encoded size
+    /// is at most StreamingThresholdBytes and no progress is asked for; otherwise it streams in chunks of about
+    /// ChunkSizeBytes and the server reports progress (receiving, seeding, refining, describing) to
+    /// <paramref name="progress"/>.
+    /// </summary>
+    /// <exception cref="RpcException">
+    /// INVALID_ARGUMENT with a google.rpc.BadRequest naming each bad field (read it with
+    /// <c>exception.GetRpcStatus()?.GetDetail&lt;BadRequest&gt;()</c>); RESOURCE_EXHAUSTED when the batch is over a
+    /// server limit; DEADLINE_EXCEEDED after <see cref="TopicGroupsClientOptions.Timeout"/>; CANCELLED when
+    /// <paramref name="cancellationToken"/> fires; UNAVAILABLE when every attempt failed.
+    /// </exception>
+    public async Task<GroupDocumentsResponse> GroupDocumentsAsync(
+        IReadOnlyList<Document> documents,
+        GroupingOptions options,
+        IProgress<GroupingProgress>? progress = null,
+        CancellationToken cancellationToken = default)
+    {
+        ArgumentNullException.ThrowIfNull(documents);
+        ArgumentNullException.ThrowIfNull(options);
+
+        // One deadline for the whole call: retries share what is left of it.
+        DateTime deadline = DateTime.UtcNow + _options.Timeout;
+        int[] sizes = EncodedSizes(documents, out long totalBytes);
+        if (progress is null && totalBytes <= _options.StreamingThresholdBytes)
+        {
+            var request = new GroupDocumentsRequest { Options = options };
+            request.Documents.AddRange(documents);
+            return await _retry.ExecuteAsync(
+                async token => await _client.GroupDocumentsAsync(request, deadline: deadline, cancellationToken: token),
+                cancellationToken);
+        }
+
+        List<StreamGroupDocumentsRequest> chunks = Chunk(documents, sizes, options, _options.ChunkSizeBytes);
+        return await _retry.ExecuteAsync(
+            async token => await StreamAsync(chunks, progress, deadline, token),
+            cancellationToken);
+    }
+
+    /// <summary>True when the server's grpc.health.v1 check reports SERVING.</summary>
+    /// <exception cref="RpcException">The server could not be reached (no retries here).</exception>
+    public async Task<bool> CheckHealthAsync(CancellationToken cancellationToken = default)
+    {
+        HealthCheckResponse response = await _health.CheckAsync(
+            new HealthCheckRequest(),
+            deadline: DateTime.UtcNow + HealthCheckTimeout,
+            cancellationToken: cancellationToken);
+        return response.Status == HealthCheckResponse.Types.ServingStatus.Serving;
+    }
+
+    private async Task<GroupDocumentsResponse> StreamAsync(
+        List<StreamGroupDocumentsRequest> chunks,
+        IProgress<GroupingProgress>? progress,
+        DateTime deadline,
+        CancellationToken cancellationToken)
+    {
+        using AsyncDuplexStreamingCall<StreamGroupDocumentsRequest, StreamGroupDocumentsResponse> call =
+            _client.StreamGroupDocuments(deadline: deadline, cancellationToken: cancellationToken);
+
+        // Read while writing: the server answers each chunk with a progress event.
+        Task<GroupDocumentsResponse> reading = ReadResultAsync(call.ResponseStream, progress, cancellationToken);
+        try
+        {
+            foreach (StreamGroupDocumentsRequest chunk in chunks)
+            {
+                if (reading.IsCompleted)
+                {
+                    break; // the server has ended the call (an error); its status is in `reading`
+                }
+
+                await call.RequestStream.WriteAsync(chunk, cancellationToken);
+            }
+
+            await call.RequestStream.CompleteAsync();
+        }
+        catch (Exception) when (!reading.IsCompletedSuccessfully)
+        {
+            // A write fails once the server has ended the call; the server's status says why, so report that.
+            await reading;
+            throw;
+        }
+
+        return await reading;
+    }
+
+    private static async Task<GroupDocumentsResponse> ReadResultAsync(
+        IAsyncStreamReader<StreamGroupDocumentsResponse> responses,
+        IProgress<GroupingProgress>? progress,
+        CancellationToken cancellationToken)
+    {
+        GroupDocumentsResponse? result = null;
+        await foreach (StreamGroupDocumentsResponse response in responses.ReadAllAsync(cancellationToken))
+        {
+            switch (response.EventCase)
+            {
+                case StreamGroupDocumentsResponse.EventOneofCase.Progress:
+                    progress?.Report(response.Progress);
+                    break;
+                case StreamGroupDocumentsResponse.EventOneofCase.Result:
+                    result = response.Result;
+                    break;
+            }
+        }
+
+        return result ?? throw new RpcException(new Status(
+            StatusCode.Internal,
+            "The server ended the stream without a result; this is a server fault, please report it."));
+    }
+
+    private static int[] EncodedSizes(IReadOnlyList<Document> documents, out long totalBytes)
+    {
+        var sizes = new int[documents.Count];
+        totalBytes = 0;
+        for (int i = 0; i < sizes.Length; i++)
+        {
+            Document document = documents[i] ?? throw new ArgumentException($"documents[{i}] is null.", nameof(documents));
+            sizes[i] = document.CalculateSize() + FieldOverheadBytes;
+            totalBytes += sizes[i];
+        }
+
+        return sizes;
+    }
+
+    // Chunks hold references to the caller's documents (no copies); chunk 0 carries the options.
+    private static List<StreamGroupDocumentsRequest> Chunk(
+        IReadOnlyList<Document> documents,
+        int[] sizes,
+        GroupingOptions options,
+        int chunkSizeBytes)
+    {
+        var chunks = new List<StreamGroupDocumentsRequest>();
+        var current = new StreamGroupDocumentsRequest { ChunkIndex = 0, Options = options };
+        long currentBytes = options.CalculateSize() + FieldOverheadBytes;
+        for (int i = 0; i < documents.Count; i++)
+        {
+            if (current.Documents.Count > 0 && currentBytes + sizes[i] > chunkSizeBytes)
+            {
+                chunks.Add(current);
+                current = new StreamGroupDocumentsRequest { ChunkIndex = chunks.Count };
+                currentBytes = FieldOverheadBytes;
+            }
+
+            current.Documents.Add(documents[i]);
+            currentBytes += sizes[i];
+        }
+
+        chunks.Add(current); // an empty batch still sends chunk 0, so the server can say what is wrong
+        return chunks;
+    }
+
+    private static ResiliencePipeline BuildRetry(TopicGroupsClientOptions options)
+    {
+        if (options.MaxRetryAttempts == 0)
+        {
+            return ResiliencePipeline.Empty;
+        }
+
+        return new ResiliencePipelineBuilder()
+            .AddRetry(new RetryStrategyOptions
+            {
+                // Only UNAVAILABLE: the server was not reached or went away. Other codes are answers about this batch.
+                ShouldHandle = new PredicateBuilder().Handle<RpcException>(e => e.StatusCode == StatusCode.Unavailable),
+                MaxRetryAttempts = options.MaxRetryAttempts,
+                BackoffType = DelayBackoffType.Exponential,
+                UseJitter = true,
+                Delay = options.RetryDelay,
+            })
+            .Build();
+    }
+}
