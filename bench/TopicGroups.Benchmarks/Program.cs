@@ -1,1 +1,26 @@
+using BenchmarkDotNet.Running;
+using TopicGroups.Benchmarks;
+
+// Quick modes (plain stopwatch, seconds):
+//   gflops [n d k]      the assignment kernel's GFLOP/s per path, default 100000 384 100, plus the FMA peak
+//   fit [threads]       full fits: 20k x 384 k = 32 and 100k x 384 k = 100, 20 iterations, 1 restart
+// Anything else goes to BenchmarkDotNet, e.g. `-- --filter *BlockScores*`.
+if (args.Length > 0 && args[0] == "gflops")
+{
+    int n = args.Length > 1 ? int.Parse(args[1]) : 100_000;
+    int d = args.Length > 2 ? int.Parse(args[2]) : 384;
+    int k = args.Length > 3 ? int.Parse(args[3]) : 100;
+    QuickMeasurements.Gflops(n, d, k, passes: 5);
+    return 0;
+}
+
+if (args.Length > 0 && args[0] == "fit")
+{
+    int threads = args.Length > 1 ? int.Parse(args[1]) : Environment.ProcessorCount;
+    QuickMeasurements.Fit(20_000, 384, 32, iterations: 20, threads);
+    QuickMeasurements.Fit(100_000, 384, 100, iterations: 20, threads);
+    return 0;
+}
+
+BenchmarkSwitcher.FromAssembly(typeof(BlockScoresBenchmarks).Assembly).Run(args);
 return 0;

@@ -1,3 +1,4 @@
+using System.Runtime.CompilerServices;
 using System.Runtime.Intrinsics;
 
 namespace TopicGroups.Core.Clustering;
@@ -15,51 +16,57 @@ internal static class CentroidUpdate
         }
     }
 
+    /// <summary>Dimensions per work item of the sum pass: 64 float64 sums per group stay in L1/L2 while rows stream by.</summary>
+    private const int SliceWidth = 64;
+
     /// <summary>
     /// Recomputes every centroid from the current assignments and returns the objective for them:
     /// Σ_c ‖s_c‖ / n, which equals the mean cosine of each row to its new centroid because
-    /// Σ_{i ∈ c} x_i · s_c / ‖s_c‖ = ‖s_c‖. Sums are float64, each group's in ascending row order,
-    /// so the result is the same for any thread count. GroupSizes must be current and no group empty.
+    /// Σ_{i ∈ c} x_i · s_c / ‖s_c‖ = ‖s_c‖. The sums are float64 and split by dimension slices, each slice
+    /// adding rows in ascending order, so every sum is formed in the same order for any thread count.
+    /// GroupSizes must be current and no group empty.
     /// </summary>
     public static double Update(ClusteringWorkspace ws)
     {
         int k = ws.K;
-        int[] start = ws.MemberStart;
-        start[0] = 0;
-        for (int c = 0; c < k; c++)
-        {
-            start[c + 1] = start[c] + ws.GroupSizes[c];
-        }
-
-        // Counting sort of rows by group, keeping ascending row order within each group.
-        int[] cursor = ws.MemberCursor;
-        Array.Copy(start, cursor, k);
-        for (int i = 0; i < ws.N; i++)
-        {
-            ws.MemberOrder[cursor[ws.Assignments[i]]++] = i;
-        }
-
-        ws.Blocks.ForEach(k, (c, _) => UpdateGroup(ws, c));
+        int d = ws.D;
+        int slices = (d + SliceWidth - 1) / SliceWidth;
+        ws.Blocks.ForEach(slices, (slice, _) => SumSlice(ws, slice));
 
         double total = 0;
         for (int c = 0; c < k; c++)
         {
-            total += ws.SumNorms[c];
+            total += Normalise(ws, c);
         }
 
         return total / ws.N;
     }
 
-    private static void UpdateGroup(ClusteringWorkspace ws, int c)
+    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
+    private static void SumSlice(ClusteringWorkspace ws, int slice)
     {
         int d = ws.D;
-        Span<double> sum = ws.Sums.AsSpan(c * d, d);
-        sum.Clear();
-        for (int m = ws.MemberStart[c]; m < ws.MemberStart[c + 1]; m++)
+        int from = slice * SliceWidth;
+        int width = Math.Min(SliceWidth, d - from);
+        double[] sums = ws.Sums;
+        for (int c = 0; c < ws.K; c++)
         {
-            AddWidened(ws.Row(ws.MemberOrder[m]), sum);
+            sums.AsSpan(c * d + from, width).Clear();
         }
 
+        float[] rows = ws.Rows;
+        int[] assignments = ws.Assignments;
+        for (int i = 0; i < ws.N; i++)
+        {
+            AddWidened(rows.AsSpan(i * d + from, width), sums.AsSpan(assignments[i] * d + from, width));
+        }
+    }
+
+    /// <summary>Writes centroid c = s_c / ‖s_c‖ and returns ‖s_c‖.</summary>
+    private static double Normalise(ClusteringWorkspace ws, int c)
+    {
+        int d = ws.D;
+        ReadOnlySpan<double> sum = ws.Sums.AsSpan(c * d, d);
         double squared = 0;
         foreach (double value in sum)
         {
@@ -67,7 +74,6 @@ internal static class CentroidUpdate
         }
 
         double norm = Math.Sqrt(squared);
-        ws.SumNorms[c] = norm;
         Span<float> centroid = ws.Centroid(c);
         if (norm > 0)
         {
@@ -81,11 +87,15 @@ internal static class CentroidUpdate
         {
             // Members cancel out exactly (e.g. x and −x): every unit vector gives them the same total
             // cosine, 0, so take the first member's direction to keep the centroid unit length.
-            ws.Row(ws.MemberOrder[ws.MemberStart[c]]).CopyTo(centroid);
+            int firstMember = Array.IndexOf(ws.Assignments, c);
+            ws.Row(firstMember).CopyTo(centroid);
         }
+
+        return norm;
     }
 
     /// <summary>sum[p] += row[p], widening float32 to float64.</summary>
+    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
     internal static void AddWidened(ReadOnlySpan<float> row, Span<double> sum)
     {
         int p = 0;

@@ -17,6 +17,7 @@ internal sealed class ClusteringWorkspace
         Blocks = new RowBlocks(N, workerCount);
 
         Centroids = new float[K * D];
+        Panel = new CentroidPanel(K, D);
         Assignments = new int[N];
         Similarities = new float[N];
         RunnerUpGroups = new int[N];
@@ -31,11 +32,7 @@ internal sealed class ClusteringWorkspace
         }
 
         GroupSizes = new int[K];
-        MemberStart = new int[K + 1];
-        MemberOrder = new int[N];
-        MemberCursor = new int[K];
         Sums = new double[K * D];
-        SumNorms = new double[K];
 
         MinDistance = new float[N];
         IsSeed = new bool[N];
@@ -53,6 +50,9 @@ internal sealed class ClusteringWorkspace
 
     /// <summary>k × d, row-major, unit rows once a run has started.</summary>
     public float[] Centroids { get; }
+
+    /// <summary>The centroids packed for <see cref="BlockScores"/>; repacked before every scoring pass.</summary>
+    public CentroidPanel Panel { get; }
 
     public int[] Assignments { get; }
 
@@ -74,18 +74,8 @@ internal sealed class ClusteringWorkspace
 
     public int[] GroupSizes { get; }
 
-    /// <summary>Members of group c are MemberOrder[MemberStart[c] .. MemberStart[c + 1]), ascending.</summary>
-    public int[] MemberStart { get; }
-
-    public int[] MemberOrder { get; }
-
-    public int[] MemberCursor { get; }
-
     /// <summary>k × d, float64 sums of each group's member rows.</summary>
     public double[] Sums { get; }
-
-    /// <summary>‖sum of group c‖: the sum over c is n × objective (Dhillon &amp; Modha, 2001, eq. 7).</summary>
-    public double[] SumNorms { get; }
 
     /// <summary>Seeding: 1 − max cosine of each row to the seeds chosen so far.</summary>
     public float[] MinDistance { get; }

@@ -1,3 +1,4 @@
+using System.Runtime.CompilerServices;
 using TopicGroups.Core.Vectors;
 
 namespace TopicGroups.Core.Clustering;
@@ -13,6 +14,7 @@ internal static class GroupAssignment
     public static (int Reassigned, double Objective) AssignAll(ClusteringWorkspace ws)
     {
         RowBlocks blocks = ws.Blocks;
+        ws.Panel.Pack(ws.Centroids);
         blocks.ForEachBlock((block, worker) => AssignBlock(ws, block, worker));
 
         int reassigned = 0;
@@ -30,9 +32,13 @@ internal static class GroupAssignment
     /// Keeps the assignments and refreshes each row's cosine to its own centroid and its runner-up,
     /// after the centroids moved since the last assignment pass.
     /// </summary>
-    public static void ScoreAssigned(ClusteringWorkspace ws) =>
+    public static void ScoreAssigned(ClusteringWorkspace ws)
+    {
+        ws.Panel.Pack(ws.Centroids);
         ws.Blocks.ForEachBlock((block, worker) => ScoreAssignedBlock(ws, block, worker));
+    }
 
+    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
     private static void AssignBlock(ClusteringWorkspace ws, int block, int worker)
     {
         int d = ws.D;
@@ -40,7 +46,7 @@ internal static class GroupAssignment
         int start = ws.Blocks.Start(block);
         int length = ws.Blocks.Length(block);
         Span<float> scores = ws.BlockScratch[worker].AsSpan(0, length * k);
-        BlockScores.Compute(ws.Rows.AsSpan(start * d, length * d), ws.Centroids, d, scores);
+        BlockScores.Compute(ws.Rows.AsSpan(start * d, length * d), ws.Panel, scores, k);
 
         int reassigned = 0;
         double sum = 0;
@@ -90,6 +96,7 @@ internal static class GroupAssignment
         ws.BlockObjective[block] = sum;
     }
 
+    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
     private static void ScoreAssignedBlock(ClusteringWorkspace ws, int block, int worker)
     {
         int d = ws.D;
@@ -97,7 +104,7 @@ internal static class GroupAssignment
         int start = ws.Blocks.Start(block);
         int length = ws.Blocks.Length(block);
         Span<float> scores = ws.BlockScratch[worker].AsSpan(0, length * k);
-        BlockScores.Compute(ws.Rows.AsSpan(start * d, length * d), ws.Centroids, d, scores);
+        BlockScores.Compute(ws.Rows.AsSpan(start * d, length * d), ws.Panel, scores, k);
 
         for (int r = 0; r < length; r++)
         {

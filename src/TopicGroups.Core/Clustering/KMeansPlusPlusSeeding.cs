@@ -1,3 +1,4 @@
+using System.Runtime.CompilerServices;
 using System.Numerics.Tensors;
 
 namespace TopicGroups.Core.Clustering;
@@ -45,39 +46,38 @@ internal static class KMeansPlusPlusSeeding
     private static double UpdateDistances(ClusteringWorkspace ws, int seedIndex)
     {
         RowBlocks blocks = ws.Blocks;
-        float[] rows = ws.Rows;
-        float[] minDistance = ws.MinDistance;
-        int d = ws.D;
-        float[] centroids = ws.Centroids;
-        double[] partial = ws.BlockObjective;
-        blocks.ForEachBlock((block, _) =>
-        {
-            ReadOnlySpan<float> seed = centroids.AsSpan(seedIndex * d, d);
-            int start = blocks.Start(block);
-            int end = start + blocks.Length(block);
-            double sum = 0;
-            for (int i = start; i < end; i++)
-            {
-                // Clamped at 0: rounding can put a cosine a hair above 1.
-                float distance = MathF.Max(0f, 1f - TensorPrimitives.Dot(rows.AsSpan(i * d, d), seed));
-                if (distance < minDistance[i])
-                {
-                    minDistance[i] = distance;
-                }
-
-                sum += minDistance[i];
-            }
-
-            partial[block] = sum;
-        });
-
+        blocks.ForEachBlock((block, _) => UpdateBlock(ws, seedIndex, block));
         double total = 0;
         for (int block = 0; block < blocks.Count; block++)
         {
-            total += partial[block];
+            total += ws.BlockObjective[block];
         }
 
         return total;
+    }
+
+    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
+    private static void UpdateBlock(ClusteringWorkspace ws, int seedIndex, int block)
+    {
+        int d = ws.D;
+        float[] minDistance = ws.MinDistance;
+        ReadOnlySpan<float> seed = ws.Centroids.AsSpan(seedIndex * d, d);
+        int start = ws.Blocks.Start(block);
+        int end = start + ws.Blocks.Length(block);
+        double sum = 0;
+        for (int i = start; i < end; i++)
+        {
+            // Clamped at 0: rounding can put a cosine a hair above 1.
+            float distance = MathF.Max(0f, 1f - TensorPrimitives.Dot(ws.Row(i), seed));
+            if (distance < minDistance[i])
+            {
+                minDistance[i] = distance;
+            }
+
+            sum += minDistance[i];
+        }
+
+        ws.BlockObjective[block] = sum;
     }
 
     /// <summary>The first row whose cumulative weight exceeds <paramref name="target"/>; a chosen seed has weight 0 and is never drawn.</summary>

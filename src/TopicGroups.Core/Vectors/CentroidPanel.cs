@@ -1,0 +1,97 @@
+namespace TopicGroups.Core.Vectors;
+
+/// <summary>
+/// Centroids k × d repacked for <see cref="BlockScores"/>: columns padded with zeros to a multiple of 16,
+/// then cut into panels of up to 64 columns; panel q stores, for each dimension p, its columns
+/// side by side: Values[Offset(q) + p * Width(q) + c] = centroid (64q + c), coordinate p.
+/// A kernel then loads 16 centroids' coordinate p with one vector load and walks each panel
+/// front to back. Allocated once per fit (pinned, 64-byte aligned) and repacked each iteration.
+/// </summary>
+internal sealed class CentroidPanel
+{
+    /// <summary>Columns per panel: 64 × 384 dimensions × 4 bytes = 96 KiB, which stays in L2.</summary>
+    public const int PanelColumns = 64;
+
+    /// <summary>Column padding: one Vector512 of float32.</summary>
+    public const int ColumnAlignment = 16;
+
+    private const int AlignmentBytes = 64;
+
+    private readonly float[] _storage;
+
+    public CentroidPanel(int k, int d)
+    {
+        ArgumentOutOfRangeException.ThrowIfNegative(k);
+        ArgumentOutOfRangeException.ThrowIfNegativeOrZero(d);
+        K = k;
+        D = d;
+        PaddedK = (k + ColumnAlignment - 1) / ColumnAlignment * ColumnAlignment;
+        PanelCount = (PaddedK + PanelColumns - 1) / PanelColumns;
+        int length = checked(PaddedK * d);
+        _storage = GC.AllocateArray<float>(length + AlignmentBytes / sizeof(float), pinned: true);
+        unsafe
+        {
+            fixed (float* start = _storage)
+            {
+                // Pinned, so the address is stable: skip ahead to the first 64-byte boundary.
+                StorageOffset = (int)((AlignmentBytes - ((nuint)start % AlignmentBytes)) % AlignmentBytes / sizeof(float));
+            }
+        }
+    }
+
+    public int K { get; }
+
+    public int D { get; }
+
+    /// <summary>k rounded up to a multiple of 16.</summary>
+    public int PaddedK { get; }
+
+    public int PanelCount { get; }
+
+    internal int StorageOffset { get; }
+
+    /// <summary>The packed values, PaddedK × d in panel order; padding columns are zero.</summary>
+    public Span<float> Values => _storage.AsSpan(StorageOffset, PaddedK * D);
+
+    /// <summary>Columns in panel q: 16, 32, 48 or 64.</summary>
+    public int Width(int panel) => Math.Min(PanelColumns, PaddedK - panel * PanelColumns);
+
+    /// <summary>Start of panel q in <see cref="Values"/>.</summary>
+    public int Offset(int panel) => panel * PanelColumns * D;
+
+    /// <summary>Repacks row-major centroids k × d.</summary>
+    public void Pack(ReadOnlySpan<float> centroids)
+    {
+        if (centroids.Length != K * D)
+        {
+            throw new ArgumentException($"centroids has {centroids.Length} values; {K} × {D} = {K * D} expected.", nameof(centroids));
+        }
+
+        Span<float> values = Values;
+        for (int panel = 0; panel < PanelCount; panel++)
+        {
+            int width = Width(panel);
+            Span<float> block = values.Slice(Offset(panel), width * D);
+            int firstColumn = panel * PanelColumns;
+            for (int c = 0; c < width; c++)
+            {
+                int j = firstColumn + c;
+                if (j < K)
+                {
+                    ReadOnlySpan<float> centroid = centroids.Slice(j * D, D);
+                    for (int p = 0; p < D; p++)
+                    {
+                        block[p * width + c] = centroid[p];
+                    }
+                }
+                else
+                {
+                    for (int p = 0; p < D; p++)
+                    {
+                        block[p * width + c] = 0f;
+                    }
+                }
+            }
+        }
+    }
+}
