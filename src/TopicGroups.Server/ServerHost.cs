@@ -57,7 +57,7 @@ public static class ServerHost
         // Read through options (not at build time) so test hosts and later configuration sources apply.
         services.AddOptions<GrpcServiceOptions>()
             .Configure<IOptions<TopicGroupsLimits>>((grpc, limits) => grpc.MaxReceiveMessageSize = limits.Value.MaxMessageBytes);
-        services.AddGrpcHealthChecks();
+        services.AddGrpcHealthChecks().AddCheck<GroupingHealthCheck>(GroupingHealthCheck.Name);
         services.AddGrpcReflection();
         services.AddMetrics();
 
