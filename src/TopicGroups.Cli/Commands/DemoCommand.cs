@@ -1,0 +1,63 @@
+using System.CommandLine;
+using System.Diagnostics;
+using System.Globalization;
+
+namespace TopicGroups.Cli.Commands;
+
+/// <summary>
+/// <c>demo</c>: groups the bundled support tickets (texts plus MiniLM embeddings) and prints the report,
+/// so the whole path can be seen working without any data of one's own.
+/// </summary>
+internal static class DemoCommand
+{
+    /// <summary>A group count that suits the bundled tickets.</summary>
+    public const int DefaultGroupCount = 12;
+
+    public static Command Create(GroupingCall grouping)
+    {
+        var groups = new Option<int>("--groups", "-k")
+        {
+            Description = "Number of groups to form.",
+            DefaultValueFactory = _ => DefaultGroupCount,
+        };
+        GroupCommand.AddPositiveValidator(groups);
+        var options = new GroupingOptionSet();
+        var command = new Command("demo", "Group the bundled demo tickets and print the report.") { groups };
+        options.AddTo(command);
+
+        command.SetAction(async (parseResult, cancellationToken) =>
+        {
+            TextWriter output = parseResult.InvocationConfiguration.Output;
+            TextWriter error = parseResult.InvocationConfiguration.Error;
+            var files = DemoFiles.Locate(AppContext.BaseDirectory, Environment.CurrentDirectory);
+            if (files is null)
+            {
+                error.WriteLine(
+                    $"demo data not found: looked for {DemoFiles.DocumentsFileName} and {DemoFiles.EmbeddingsFileName} in "
+                    + string.Join(", ", DemoFiles.Candidates(AppContext.BaseDirectory, Environment.CurrentDirectory).Take(2))
+                    + " and the demo/ folders above; run from the repository or rebuild the CLI");
+                return ExitCodes.Failure;
+            }
+
+            var (documents, embeddings) = files.Value;
+            output.WriteLine($"Demo: {documents} with embeddings from {Path.GetFileName(embeddings)}");
+            output.WriteLine();
+            var run = new GroupRun(
+                documents,
+                embeddings,
+                options.ToProto(parseResult, parseResult.GetValue(groups)),
+                options.Server(parseResult),
+                parseResult.GetValue(options.Output),
+                parseResult.GetValue(options.Csv));
+            var stopwatch = Stopwatch.StartNew();
+            int exitCode = await GroupCommand.RunAsync(run, grouping, output, error, cancellationToken);
+            if (exitCode == ExitCodes.Success)
+            {
+                error.WriteLine(string.Create(CultureInfo.InvariantCulture, $"demo finished in {stopwatch.Elapsed.TotalSeconds:F2} s (reading, service start, grouping)"));
+            }
+
+            return exitCode;
+        });
+        return command;
+    }
+}

@@ -1,0 +1,280 @@
+using System.CommandLine;
+using System.CommandLine.Parsing;
+using Grpc.Core;
+using TopicGroups.Cli.Input;
+using TopicGroups.Cli.Output;
+using TopicGroups.Protos.V1;
+
+namespace TopicGroups.Cli.Commands;
+
+/// <summary>What one grouping run reads, asks for and writes.</summary>
+internal sealed record GroupRun(
+    string InputPath,
+    string? EmbeddingsPath,
+    GroupingOptions Options,
+    Uri? Server,
+    string? JsonPath,
+    string? CsvPath);
+
+/// <summary>
+/// <c>group</c>: reads documents (JSONL, with embeddings inline or in a .npy), sends them to the
+/// service, prints the report and optionally writes JSON and CSV.
+/// </summary>
+internal static class GroupCommand
+{
+    public static Command Create(GroupingCall grouping)
+    {
+        var input = new Option<string>("--input", "-i")
+        {
+            Description = "JSONL file: one {\"id\", \"text\", \"embedding\"} object per line (\"embedding\" optional with --embeddings).",
+            Required = true,
+        };
+        var embeddings = new Option<string?>("--embeddings", "-e")
+        {
+            Description = "A .npy matrix (float32 or float64, shape (documents, dimensions)); row i is the i-th document's embedding. Any \"embedding\" in the JSONL is then ignored.",
+        };
+        var groups = new Option<int>("--groups", "-k") { Description = "Number of groups to form.", Required = true };
+        var options = new GroupingOptionSet();
+
+        var command = new Command("group", "Group documents by their embeddings and describe each group.")
+        {
+            input, embeddings, groups,
+        };
+        options.AddTo(command);
+        AddPositiveValidator(groups);
+
+        command.SetAction((parseResult, cancellationToken) =>
+        {
+            var run = new GroupRun(
+                parseResult.GetRequiredValue(input),
+                parseResult.GetValue(embeddings),
+                options.ToProto(parseResult, parseResult.GetValue(groups)),
+                options.Server(parseResult),
+                parseResult.GetValue(options.Output),
+                parseResult.GetValue(options.Csv));
+            return RunAsync(run, grouping, parseResult.InvocationConfiguration.Output, parseResult.InvocationConfiguration.Error, cancellationToken);
+        });
+        return command;
+    }
+
+    public static async Task<int> RunAsync(GroupRun run, GroupingCall grouping, TextWriter output, TextWriter error, CancellationToken cancellationToken)
+    {
+        GroupDocumentsResponse response;
+        try
+        {
+            List<Document> documents = ReadDocuments(run);
+            if (run.Options.GroupCount > documents.Count)
+            {
+                throw new InputException(
+                    $"--groups {run.Options.GroupCount} is more than the {documents.Count} documents in {Path.GetFileName(run.InputPath)}; ask for at most {documents.Count}");
+            }
+
+            using ProgressLine? progress = ProgressLine.ForTerminal(error);
+            response = await grouping(run.Server, documents, run.Options, progress, cancellationToken);
+        }
+        catch (InputException ex)
+        {
+            error.WriteLine(ex.Message);
+            return ExitCodes.BadInput;
+        }
+        catch (RpcException ex) when (ex.StatusCode == StatusCode.Cancelled && cancellationToken.IsCancellationRequested)
+        {
+            error.WriteLine("cancelled");
+            return ExitCodes.Cancelled;
+        }
+        catch (RpcException ex)
+        {
+            foreach (string line in RpcErrorText.Lines(ex, run.Server))
+            {
+                error.WriteLine(line);
+            }
+
+            return RpcErrorText.IsBadInput(ex.StatusCode) ? ExitCodes.BadInput : ExitCodes.Failure;
+        }
+        catch (OperationCanceledException) when (cancellationToken.IsCancellationRequested)
+        {
+            error.WriteLine("cancelled");
+            return ExitCodes.Cancelled;
+        }
+        catch (HttpRequestException ex)
+        {
+            error.WriteLine($"cannot reach the server at {run.Server}: {ex.Message}");
+            return ExitCodes.Failure;
+        }
+
+        TextReport.Write(output, response);
+        return WriteFiles(run, response, error);
+    }
+
+    /// <summary>Reads the JSONL and, when given, the .npy; each document ends up holding its own embedding.</summary>
+    internal static List<Document> ReadDocuments(GroupRun run)
+    {
+        JsonlDocuments read = JsonlDocumentReader.Read(run.InputPath, readEmbeddings: run.EmbeddingsPath is null);
+        if (run.EmbeddingsPath is not null)
+        {
+            AttachEmbeddings(read, run.EmbeddingsPath);
+        }
+
+        return read.Documents;
+    }
+
+    private static void AttachEmbeddings(JsonlDocuments read, string npyPath)
+    {
+        using NpyReader npy = NpyReader.Open(npyPath);
+        string npyName = Path.GetFileName(npyPath);
+        if (npy.Rows != read.Documents.Count)
+        {
+            throw new InputException(
+                $"{npyName}: has {npy.Rows} rows but {read.FileName} has {read.Documents.Count} documents; row i must be the embedding of the i-th document");
+        }
+
+        if (npy.Columns == 0)
+        {
+            throw new InputException($"{npyName}: rows have 0 values; an embedding needs at least one");
+        }
+
+        read.Dimensions = npy.Columns;
+        float[] row = new float[npy.Columns];
+        for (int i = 0; i < npy.Rows; i++)
+        {
+            npy.ReadRow(row);
+            int bad = IndexOfNonFinite(row);
+            if (bad >= 0)
+            {
+                throw new InputException(
+                    $"{npyName} row {i}: value {bad} is {row[bad]} (NaN or infinite); embeddings must be finite (document on {read.FileName} line {read.LineNumbers[i]})");
+            }
+
+            Google.Protobuf.Collections.RepeatedField<float> embedding = read.Documents[i].Embedding;
+            embedding.Capacity = row.Length;
+            embedding.Add(row);
+        }
+    }
+
+    private static int IndexOfNonFinite(ReadOnlySpan<float> row)
+    {
+        for (int j = 0; j < row.Length; j++)
+        {
+            if (!float.IsFinite(row[j]))
+            {
+                return j;
+            }
+        }
+
+        return -1;
+    }
+
+    private static int WriteFiles(GroupRun run, GroupDocumentsResponse response, TextWriter error)
+    {
+        string? current = null;
+        try
+        {
+            if (run.JsonPath is not null)
+            {
+                current = run.JsonPath;
+                JsonResultWriter.Write(run.JsonPath, response, run.Options);
+                error.WriteLine($"wrote {run.JsonPath} (groups, {response.Documents.Count} document placements, statistics)");
+            }
+
+            if (run.CsvPath is not null)
+            {
+                current = run.CsvPath;
+                CsvAssignmentsWriter.Write(run.CsvPath, response);
+                error.WriteLine($"wrote {run.CsvPath} ({response.Documents.Count} rows)");
+            }
+        }
+        catch (Exception ex) when (ex is IOException or UnauthorizedAccessException)
+        {
+            error.WriteLine($"{current}: cannot write: {ex.Message}");
+            return ExitCodes.Failure;
+        }
+
+        return ExitCodes.Success;
+    }
+
+    internal static void AddPositiveValidator(Option<int> option)
+    {
+        option.Validators.Add(result =>
+        {
+            if (result.Tokens.Count > 0 && result.GetValueOrDefault<int>() < 1)
+            {
+                result.AddError($"{option.Name} must be at least 1 (got {result.GetValueOrDefault<int>()})");
+            }
+        });
+    }
+}
+
+/// <summary>The options <c>group</c> and <c>demo</c> share: tuning, outputs and where the service runs.</summary>
+internal sealed class GroupingOptionSet
+{
+    public Option<ulong?> Seed { get; } = new("--seed") { Description = "Seed for the initial centres; the same seed and input give the same groups. Default: the server's (0)." };
+
+    public Option<int> Restarts { get; } = new("--restarts") { Description = "Independent runs; the best is kept. Default: the server's." };
+
+    public Option<int> MaxIterations { get; } = new("--max-iterations") { Description = "Refinement iterations per run at most. Default: the server's." };
+
+    public Option<int> Terms { get; } = new("--terms") { Description = "Top terms per group. Default: the server's." };
+
+    public Option<int> Examples { get; } = new("--examples") { Description = "Documents nearest each centre to return. Default: the server's." };
+
+    public Option<bool> Bigrams { get; } = new("--bigrams") { Description = "Also weigh two-word phrases as terms." };
+
+    public Option<string?> Output { get; } = new("--output", "-o") { Description = "Write the full result as JSON to this file." };
+
+    public Option<string?> Csv { get; } = new("--csv") { Description = "Write one row per document (id,group,similarity,margin,outlier) to this CSV file." };
+
+    public Option<string?> ServerAddress { get; } = new("--server") { Description = "Address of a running TopicGroups server (http://host:port). Default: run the service inside this process." };
+
+    public void AddTo(Command command)
+    {
+        command.Add(Seed);
+        command.Add(Restarts);
+        command.Add(MaxIterations);
+        command.Add(Terms);
+        command.Add(Examples);
+        command.Add(Bigrams);
+        command.Add(Output);
+        command.Add(Csv);
+        command.Add(ServerAddress);
+        GroupCommand.AddPositiveValidator(Restarts);
+        GroupCommand.AddPositiveValidator(MaxIterations);
+        GroupCommand.AddPositiveValidator(Terms);
+        GroupCommand.AddPositiveValidator(Examples);
+        ServerAddress.Validators.Add(result =>
+        {
+            string? text = result.GetValueOrDefault<string?>();
+            if (text is not null && ParseServer(text) is null)
+            {
+                result.AddError($"--server '{text}' is not an absolute http:// or https:// address, e.g. http://localhost:{TopicGroups.Server.ServerHost.DefaultPort}");
+            }
+        });
+    }
+
+    /// <summary>The request options; 0 leaves a setting to the server's default.</summary>
+    public GroupingOptions ToProto(ParseResult parseResult, int groupCount)
+    {
+        var options = new GroupingOptions
+        {
+            GroupCount = groupCount,
+            RestartCount = parseResult.GetValue(Restarts),
+            MaxIterations = parseResult.GetValue(MaxIterations),
+            TermCount = parseResult.GetValue(Terms),
+            ExampleCount = parseResult.GetValue(Examples),
+            IncludeBigrams = parseResult.GetValue(Bigrams),
+        };
+        if (parseResult.GetValue(Seed) is ulong seed)
+        {
+            options.Seed = seed;
+        }
+
+        return options;
+    }
+
+    public Uri? Server(ParseResult parseResult) =>
+        parseResult.GetValue(ServerAddress) is string text ? ParseServer(text) : null;
+
+    private static Uri? ParseServer(string text) =>
+        Uri.TryCreate(text, UriKind.Absolute, out Uri? uri) && (uri.Scheme == Uri.UriSchemeHttp || uri.Scheme == Uri.UriSchemeHttps)
+            ? uri
+            : null;
+}

@@ -1,0 +1,127 @@
+using System.Globalization;
+using System.Text;
+using TopicGroups.Protos.V1;
+
+namespace TopicGroups.Cli.Output;
+
+/// <summary>
+/// The readable report printed to stdout: one header line with the run's figures, one block per
+/// group (largest first) with size, cohesion, outliers, top terms and two example texts, then a
+/// line on outliers in total.
+/// </summary>
+internal static class TextReport
+{
+    /// <summary>Examples are cut to about this many characters so each fits on one line.</summary>
+    public const int ExampleWidth = 100;
+
+    /// <summary>How many examples per group the report shows (the JSON holds all that were returned).</summary>
+    public const int ExamplesShown = 2;
+
+    private static readonly CultureInfo Invariant = CultureInfo.InvariantCulture;
+
+    public static void Write(TextWriter writer, GroupDocumentsResponse response)
+    {
+        RunStatistics statistics = response.Statistics ?? new RunStatistics();
+        int documentCount = statistics.DocumentCount > 0 ? statistics.DocumentCount : response.Documents.Count;
+
+        writer.WriteLine(Header(response, statistics, documentCount));
+        foreach (Group group in response.Groups.OrderByDescending(g => g.Size).ThenBy(g => g.Id))
+        {
+            writer.WriteLine();
+            WriteGroup(writer, group, documentCount);
+        }
+
+        writer.WriteLine();
+        writer.WriteLine(OutlierSummary(response, documentCount));
+    }
+
+    internal static string Header(GroupDocumentsResponse response, RunStatistics statistics, int documentCount)
+    {
+        string convergence = statistics.Converged ? "converged" : "not converged (stopped at the iteration cap)";
+        return string.Create(Invariant,
+            $"{Count(documentCount, "document")}, {Count(statistics.Dimensions, "dimension")} -> {Count(response.Groups.Count, "group")}"
+            + $"   objective {statistics.Objective:F4}   {Count(statistics.Iterations, "iteration")}, {convergence}   {statistics.Seconds:F2} s");
+    }
+
+    private static void WriteGroup(TextWriter writer, Group group, int documentCount)
+    {
+        double share = documentCount > 0 ? 100.0 * group.Size / documentCount : 0;
+        writer.WriteLine(string.Create(Invariant,
+            $"Group {group.Id,-3} {Count(group.Size, "document")} ({share:F1}%)   cohesion {group.Cohesion:F3}   outliers {group.OutlierCount}"));
+
+        string terms = group.Terms.Count > 0
+            ? string.Join(", ", group.Terms.Select(t => t.Term))
+            : "(none: the texts are empty or only stop words)";
+        writer.WriteLine($"  terms     {terms}");
+        foreach (GroupExample example in group.Examples.Take(ExamplesShown))
+        {
+            writer.WriteLine($"  example   {OneLine(example.Text, ExampleWidth)}");
+        }
+    }
+
+    internal static string OutlierSummary(GroupDocumentsResponse response, int documentCount)
+    {
+        int outliers = response.Documents.Count(d => d.IsOutlier);
+        if (outliers == 0)
+        {
+            return "Outliers: none flagged.";
+        }
+
+        double share = documentCount > 0 ? 100.0 * outliers / documentCount : 0;
+        return string.Create(Invariant,
+            $"Outliers: {outliers} of {Count(documentCount, "document")} ({share:F1}%) sit far from their group's centre; the JSON (--output) and CSV (--csv) mark them \"outlier\".");
+    }
+
+    /// <summary>
+    /// Collapses runs of whitespace (line breaks included) to one space and cuts the text at a word
+    /// boundary so the result is at most <paramref name="width"/> characters, ending in "…" when cut.
+    /// </summary>
+    internal static string OneLine(string text, int width)
+    {
+        var builder = new StringBuilder(Math.Min(text.Length, width + 16));
+        bool pendingSpace = false;
+        foreach (char c in text)
+        {
+            if (char.IsWhiteSpace(c) || char.IsControl(c))
+            {
+                pendingSpace = builder.Length > 0;
+                continue;
+            }
+
+            if (pendingSpace)
+            {
+                builder.Append(' ');
+                pendingSpace = false;
+            }
+
+            builder.Append(c);
+            if (builder.Length > width)
+            {
+                break;
+            }
+        }
+
+        if (builder.Length <= width)
+        {
+            return builder.ToString();
+        }
+
+        // Keep width - 1 characters plus the ellipsis; prefer to cut at the last space.
+        int cut = width - 1;
+        int lastSpace = builder.ToString(0, cut + 1).LastIndexOf(' ');
+        if (lastSpace >= width / 2)
+        {
+            cut = lastSpace;
+        }
+
+        if (char.IsHighSurrogate(builder[cut - 1]))
+        {
+            cut--;
+        }
+
+        return builder.ToString(0, cut).TrimEnd() + "…";
+    }
+
+    private static string Count(int count, string noun) =>
+        string.Create(Invariant, $"{count:N0} {noun}{(count == 1 ? "" : "s")}");
+}
