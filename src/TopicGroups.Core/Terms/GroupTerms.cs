@@ -92,7 +92,7 @@ public static class GroupTerms
         var groupSum = new double[vocabularySize];
         var groupDocumentFrequency = new int[vocabularySize];
         var touched = new int[vocabularySize];
-        var candidates = new List<(double Weight, int TermId)>();
+        var best = new PriorityQueue<int, RankKey>(RankKey.WorstFirst);   // the TermCount best so far; worst on top
         for (int g = 0; g < groupCount; g++)
         {
             cancellationToken.ThrowIfCancellationRequested();
@@ -120,7 +120,6 @@ public static class GroupTerms
 
             int requiredDocuments = groupSize > options.MinimumDocumentsPerTerm ? options.MinimumDocumentsPerTerm : 1;
             int restSize = n - groupSize;
-            candidates.Clear();
             for (int j = 0; j < touchedCount; j++)
             {
                 int t = touched[j];
@@ -133,7 +132,15 @@ public static class GroupTerms
                     double weight = centroid - rest;
                     if (weight > MinimumListedWeight)
                     {
-                        candidates.Add((weight, t));
+                        var key = new RankKey(weight, t);
+                        if (best.Count < options.TermCount)
+                        {
+                            best.Enqueue(t, key);
+                        }
+                        else if (best.TryPeek(out _, out RankKey worst) && RankKey.WorstFirst.Compare(key, worst) > 0)
+                        {
+                            best.DequeueEnqueue(t, key);
+                        }
                     }
                 }
 
@@ -141,19 +148,26 @@ public static class GroupTerms
                 groupDocumentFrequency[t] = 0;
             }
 
-            // Highest weight first; ties by term id, which is first-occurrence order in the batch.
-            candidates.Sort(static (a, b) => a.Weight != b.Weight ? b.Weight.CompareTo(a.Weight) : a.TermId.CompareTo(b.TermId));
-            int listed = Math.Min(options.TermCount, candidates.Count);
-            var terms = new WeightedTerm[listed];
-            for (int r = 0; r < listed; r++)
+            // Dequeue gives the worst first, so fill from the back: highest weight first, ties by lower term id.
+            var terms = new WeightedTerm[best.Count];
+            for (int r = terms.Length - 1; r >= 0; r--)
             {
-                terms[r] = new WeightedTerm(corpus.TermText(candidates[r].TermId), candidates[r].Weight);
+                best.TryDequeue(out int termId, out RankKey rank);
+                terms[r] = new WeightedTerm(corpus.TermText(termId), rank.Weight);
             }
 
             result[g] = terms;
         }
 
         return result;
+    }
+
+    /// <summary>A candidate's place: higher weight is better; at equal weight the lower term id (seen first) is better.</summary>
+    private readonly record struct RankKey(double Weight, int TermId)
+    {
+        /// <summary>Orders worse before better, so a priority queue's top is the candidate to drop.</summary>
+        public static readonly IComparer<RankKey> WorstFirst = Comparer<RankKey>.Create(static (a, b) =>
+            a.Weight != b.Weight ? a.Weight.CompareTo(b.Weight) : b.TermId.CompareTo(a.TermId));
     }
 
     private static void Validate(IReadOnlyList<string> texts, ReadOnlySpan<int> assignments, int groupCount, GroupTermsOptions options)
