@@ -141,8 +141,9 @@ internal static class GroupCommand
             int bad = IndexOfNonFinite(row);
             if (bad >= 0)
             {
+                string what = float.IsNaN(row[bad]) ? "NaN" : "infinite or beyond float32's range (±3.4e38)";
                 throw new InputException(
-                    $"{npyName} row {i}: value {bad} is {row[bad]} (NaN or infinite); embeddings must be finite (document on {read.FileName} line {read.LineNumbers[i]})");
+                    $"{npyName} row {i}: value {bad} is {what}; embeddings must be finite numbers (document on {read.FileName} line {read.LineNumbers[i]})");
             }
 
             Google.Protobuf.Collections.RepeatedField<float> embedding = read.Documents[i].Embedding;

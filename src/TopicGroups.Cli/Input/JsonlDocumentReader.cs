@@ -71,7 +71,7 @@ internal static class JsonlDocumentReader
     private static Document ParseLine(ReadOnlySpan<byte> line, string fileName, int lineNumber, bool readEmbeddings)
     {
         string where = $"{fileName} line {lineNumber}";
-        var reader = new Utf8JsonReader(line, new JsonReaderOptions { CommentHandling = JsonCommentHandling.Disallow });
+        var reader = new Utf8JsonReader(line, new JsonReaderOptions { CommentHandling = JsonCommentHandling.Disallow, AllowMultipleValues = true });
         string? id = null;
         string? text = null;
         Document document = new();
