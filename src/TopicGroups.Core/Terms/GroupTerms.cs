@@ -7,7 +7,9 @@ namespace TopicGroups.Core.Terms;
 /// adjacent kept words of a document joined by a space are terms too.</para>
 /// <para>Weights, after Manning, Raghavan &amp; Schütze, Introduction to Information Retrieval (2008),
 /// ch. 6 (tf-idf, sublinear tf, cosine normalisation) and §17.7 (label a cluster by the heaviest terms of
-/// its centroid; differential labelling compares a cluster with the other clusters). With N documents in
+/// its centroid; differential labelling compares a cluster with the other clusters). The comparison
+/// chosen here, subtracting the centroid of the rest of the batch in the same tf-idf space, is this
+/// project's; the book's examples of differential labelling use mutual information or χ². With N documents in
 /// the batch, df(t) of them containing term t, tf(t, d) the count of t in document d, and a group g of
 /// |g| documents:</para>
 /// <code>
@@ -88,78 +90,104 @@ public static class GroupTerms
             documentsByGroup[filled[assignments[i]]++] = i;
         }
 
-        // Scratch reused across groups: only the touched entries are reset.
-        var groupSum = new double[vocabularySize];
-        var groupDocumentFrequency = new int[vocabularySize];
-        var touched = new int[vocabularySize];
-        var best = new PriorityQueue<int, RankKey>(RankKey.WorstFirst);   // the TermCount best so far; worst on top
-        for (int g = 0; g < groupCount; g++)
-        {
-            cancellationToken.ThrowIfCancellationRequested();
-            int groupSize = groupStarts[g + 1] - groupStarts[g];
-            if (groupSize == 0)
+        // Groups are independent: spread them over the cores, each worker with its own scratch.
+        var parallelOptions = new ParallelOptions { CancellationToken = cancellationToken, MaxDegreeOfParallelism = Environment.ProcessorCount };
+        Parallel.For(
+            0,
+            groupCount,
+            parallelOptions,
+            () => new GroupScratch(vocabularySize),
+            (g, _, scratch) =>
             {
-                continue;
-            }
-
-            int touchedCount = 0;
-            for (int m = groupStarts[g]; m < groupStarts[g + 1]; m++)
-            {
-                int d = documentsByGroup[m];
-                for (int p = corpus.DocumentStarts[d]; p < corpus.DocumentStarts[d + 1]; p++)
-                {
-                    int t = corpus.TermIds[p];
-                    if (groupDocumentFrequency[t]++ == 0)
-                    {
-                        touched[touchedCount++] = t;
-                    }
-
-                    groupSum[t] += weights[p];
-                }
-            }
-
-            int requiredDocuments = groupSize > options.MinimumDocumentsPerTerm ? options.MinimumDocumentsPerTerm : 1;
-            int restSize = n - groupSize;
-            for (int j = 0; j < touchedCount; j++)
-            {
-                int t = touched[j];
-                if (groupDocumentFrequency[t] >= requiredDocuments)
-                {
-                    double centroid = groupSum[t] / groupSize;
-                    double rest = options.CompareWithRestOfBatch && restSize > 0
-                        ? Math.Max(0, batchSum[t] - groupSum[t]) / restSize
-                        : 0;
-                    double weight = centroid - rest;
-                    if (weight > MinimumListedWeight)
-                    {
-                        var key = new RankKey(weight, t);
-                        if (best.Count < options.TermCount)
-                        {
-                            best.Enqueue(t, key);
-                        }
-                        else if (best.TryPeek(out _, out RankKey worst) && RankKey.WorstFirst.Compare(key, worst) > 0)
-                        {
-                            best.DequeueEnqueue(t, key);
-                        }
-                    }
-                }
-
-                groupSum[t] = 0;
-                groupDocumentFrequency[t] = 0;
-            }
-
-            // Dequeue gives the worst first, so fill from the back: highest weight first, ties by lower term id.
-            var terms = new WeightedTerm[best.Count];
-            for (int r = terms.Length - 1; r >= 0; r--)
-            {
-                best.TryDequeue(out int termId, out RankKey rank);
-                terms[r] = new WeightedTerm(corpus.TermText(termId), rank.Weight);
-            }
-
-            result[g] = terms;
-        }
+                ReadOnlySpan<int> members = documentsByGroup.AsSpan(groupStarts[g], groupStarts[g + 1] - groupStarts[g]);
+                result[g] = TopTermsOfGroup(corpus, weights, batchSum, members, options, scratch);
+                return scratch;
+            },
+            _ => { });
+        cancellationToken.ThrowIfCancellationRequested();
 
         return result;
+    }
+
+    // weight(t, g) for every term of the group's documents, then the TermCount best (see the class remarks).
+    private static WeightedTerm[] TopTermsOfGroup(
+        TermCorpus corpus, float[] weights, double[] batchSum, ReadOnlySpan<int> members, GroupTermsOptions options, GroupScratch scratch)
+    {
+        int groupSize = members.Length;
+        if (groupSize == 0)
+        {
+            return [];
+        }
+
+        double[] groupSum = scratch.GroupSum;
+        int[] groupDocumentFrequency = scratch.GroupDocumentFrequency;
+        int[] touched = scratch.Touched;
+        int touchedCount = 0;
+        foreach (int d in members)
+        {
+            for (int p = corpus.DocumentStarts[d]; p < corpus.DocumentStarts[d + 1]; p++)
+            {
+                int t = corpus.TermIds[p];
+                if (groupDocumentFrequency[t]++ == 0)
+                {
+                    touched[touchedCount++] = t;
+                }
+
+                groupSum[t] += weights[p];
+            }
+        }
+
+        int requiredDocuments = groupSize > options.MinimumDocumentsPerTerm ? options.MinimumDocumentsPerTerm : 1;
+        int restSize = corpus.DocumentCount - groupSize;
+        PriorityQueue<int, RankKey> best = scratch.Best;
+        best.Clear();
+        for (int j = 0; j < touchedCount; j++)
+        {
+            int t = touched[j];
+            if (groupDocumentFrequency[t] >= requiredDocuments)
+            {
+                double centroid = groupSum[t] / groupSize;
+                double rest = options.CompareWithRestOfBatch && restSize > 0
+                    ? Math.Max(0, batchSum[t] - groupSum[t]) / restSize
+                    : 0;
+                double weight = centroid - rest;
+                if (weight > MinimumListedWeight)
+                {
+                    var key = new RankKey(weight, t);
+                    if (best.Count < options.TermCount)
+                    {
+                        best.Enqueue(t, key);
+                    }
+                    else if (best.TryPeek(out _, out RankKey worst) && RankKey.WorstFirst.Compare(key, worst) > 0)
+                    {
+                        best.DequeueEnqueue(t, key);
+                    }
+                }
+            }
+
+            // Reset only what this group touched, so the scratch is clean for the next one.
+            groupSum[t] = 0;
+            groupDocumentFrequency[t] = 0;
+        }
+
+        // Dequeue gives the worst first, so fill from the back: highest weight first, ties by lower term id.
+        var terms = new WeightedTerm[best.Count];
+        for (int r = terms.Length - 1; r >= 0; r--)
+        {
+            best.TryDequeue(out int termId, out RankKey rank);
+            terms[r] = new WeightedTerm(corpus.TermText(termId), rank.Weight);
+        }
+
+        return terms;
+    }
+
+    /// <summary>One worker's vocabulary-sized buffers, all zero between groups.</summary>
+    private sealed class GroupScratch(int vocabularySize)
+    {
+        public double[] GroupSum { get; } = new double[vocabularySize];           // Σ_{d ∈ g} ŵ(t, d)
+        public int[] GroupDocumentFrequency { get; } = new int[vocabularySize];   // documents of g containing t
+        public int[] Touched { get; } = new int[vocabularySize];                  // terms seen in g, in first-seen order
+        public PriorityQueue<int, RankKey> Best { get; } = new(RankKey.WorstFirst);   // the TermCount best so far; worst on top
     }
 
     /// <summary>A candidate's place: higher weight is better; at equal weight the lower term id (seen first) is better.</summary>

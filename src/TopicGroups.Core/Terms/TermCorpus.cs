@@ -202,9 +202,11 @@ internal sealed class TermCorpus
             }
 
             Dictionary<string, int>.AlternateLookup<ReadOnlySpan<char>> lookup = vocabulary.GetAlternateLookup<ReadOnlySpan<char>>();
-            var bigramIds = includeBigrams ? new Dictionary<long, int>(PairKeyComparer.Instance) : null;
-            var unigramTexts = new List<string?>();
-            var bigramParts = new List<long>();
+            // Word pairs repeat far less than words, so a chunk holds about as many distinct pairs as documents
+            // times 16 or more; start the pair table there instead of rehashing it a dozen times.
+            var bigramIds = includeBigrams ? new Dictionary<long, int>((end - start) * 16, PairKeyComparer.Instance) : null;
+            var unigramTexts = new List<string?>(includeBigrams ? (end - start) * 20 : 1024);
+            var bigramParts = new List<long>(unigramTexts.Capacity);
 
             var documentStarts = new int[end - start + 1];
             int postings = 0;

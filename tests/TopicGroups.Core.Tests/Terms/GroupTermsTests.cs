@@ -46,6 +46,40 @@ public sealed class GroupTermsTests
     }
 
     [Fact]
+    public void TopTermsPerGroup_FiveThemesCommonWordsEverywhere_NoCommonWordInAnyTopFive()
+    {
+        // Five invented themes of a bike-rental inbox, 40 tickets each: three theme words per ticket and four of
+        // the words every ticket uses ("thanks", "issue", ...), which occur in 40-60% of the batch.
+        string[][] themes =
+        [
+            ["brake", "chain", "saddle", "tyre", "pedal", "gears", "bell", "spoke"],
+            ["invoice", "refund", "charged", "deposit", "receipt", "card", "bank", "payment"],
+            ["dock", "station", "unlock", "return", "slot", "locked", "kiosk", "code"],
+            ["app", "login", "password", "crash", "update", "screen", "phone", "account"],
+            ["helmet", "lost", "found", "bag", "keys", "wallet", "basket", "jacket"],
+        ];
+        var random = new Random(21);
+        var texts = new List<string>();
+        var assignments = new List<int>();
+        for (int i = 0; i < 200; i++)
+        {
+            int group = i % themes.Length;
+            IEnumerable<string> words = themes[group].OrderBy(_ => random.Next()).Take(3)
+                .Concat(Filler.OrderBy(_ => random.Next()).Take(4));
+            texts.Add(string.Join(' ', words.OrderBy(_ => random.Next())));
+            assignments.Add(group);
+        }
+
+        IReadOnlyList<WeightedTerm>[] terms = GroupTerms.TopTermsPerGroup(texts, assignments.ToArray(), themes.Length, Defaults with { TermCount = 5 });
+
+        for (int g = 0; g < themes.Length; g++)
+        {
+            Assert.Equal(5, terms[g].Count);
+            Assert.All(terms[g], t => Assert.Contains(t.Term, themes[g]));
+        }
+    }
+
+    [Fact]
     public void TopTermsPerGroup_FillerUnevenAcrossGroups_DistinctiveWordsStillOnTop()
     {
         // "thanks" and "hello" appear in every ticket of group 0 but only half of group 1, so group 0 holds
