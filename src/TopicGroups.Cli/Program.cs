@@ -1,4 +1,5 @@
 using System.CommandLine;
+using System.CommandLine.Invocation;
 using TopicGroups.Cli.Commands;
 
 namespace TopicGroups.Cli;
@@ -16,8 +17,17 @@ internal static class Program
         CancellationToken cancellationToken = default)
     {
         ParseResult parseResult = BuildRootCommand(grouping).Parse(args);
-        int exitCode = await parseResult.InvokeAsync(configuration, cancellationToken);
-        return parseResult.Errors.Count > 0 ? ExitCodes.BadInput : exitCode;
+        if (parseResult.Action is ParseErrorAction parseError)
+        {
+            // The errors alone, each on one line, then where the options are listed; not the whole help page.
+            parseError.ShowHelp = false;
+            int code = await parseResult.InvokeAsync(configuration, cancellationToken);
+            string command = string.Join(' ', parseResult.CommandResult.Command is RootCommand ? ["topicgroups"] : ["topicgroups", parseResult.CommandResult.Command.Name]);
+            (configuration?.Error ?? Console.Error).WriteLine($"Run '{command} --help' to see the options.");
+            return code == 0 ? ExitCodes.Success : ExitCodes.BadInput;
+        }
+
+        return await parseResult.InvokeAsync(configuration, cancellationToken);
     }
 
     /// <summary>The command tree; <paramref name="grouping"/> is the service call (a fake in tests).</summary>

@@ -69,7 +69,7 @@ internal static class GroupCommand
                     $"--groups {run.Options.GroupCount} is more than the {documents.Count} documents in {Path.GetFileName(run.InputPath)}; ask for at most {documents.Count}");
             }
 
-            using ProgressLine? progress = ProgressLine.ForTerminal(error);
+            using ProgressLine? progress = ProgressLine.ForTerminal(error, documents.Count);
             response = await grouping(run.Server, documents, run.Options, progress, cancellationToken);
         }
         catch (InputException ex)

@@ -22,17 +22,21 @@ internal sealed class ProgressLine : IProgress<GroupingProgress>, IProgress<(int
     private ProgressLine(TextWriter error) => _error = error;
 
     /// <summary>A progress line on <paramref name="error"/> if it is the console's stderr and a terminal; otherwise null.</summary>
-    public static ProgressLine? ForTerminal(TextWriter error) =>
-        ReferenceEquals(error, Console.Error) && !Console.IsErrorRedirected ? new ProgressLine(error) : null;
+    public static ProgressLine? ForTerminal(TextWriter error, int documentCount = 0) =>
+        ReferenceEquals(error, Console.Error) && !Console.IsErrorRedirected ? new ProgressLine(error) { DocumentCount = documentCount } : null;
 
-    public void Report(GroupingProgress value) => Write(Describe(value), force: false);
+    /// <summary>Documents in the batch, shown while they are sent; 0 when unknown.</summary>
+    public int DocumentCount { get; init; }
+
+    public void Report(GroupingProgress value) => Write(Describe(value, DocumentCount), force: false);
 
     public void Report((int Done, int Total) value) =>
         Write(string.Create(CultureInfo.InvariantCulture, $"embedding {value.Done:N0} of {value.Total:N0} texts"), force: value.Done == value.Total);
 
-    internal static string Describe(GroupingProgress progress) => progress.Stage switch
+    internal static string Describe(GroupingProgress progress, int documentCount) => progress.Stage switch
     {
-        GroupingStage.Receiving => string.Create(CultureInfo.InvariantCulture, $"sending documents: {progress.DocumentsReceived:N0} received"),
+        GroupingStage.Receiving => string.Create(CultureInfo.InvariantCulture,
+            $"sending documents: {progress.DocumentsReceived:N0}{(documentCount > 0 ? $" of {documentCount:N0}" : "")} received"),
         GroupingStage.Seeding => $"choosing initial centres (restart {progress.Restart + 1})",
         GroupingStage.Refining => string.Create(CultureInfo.InvariantCulture,
             $"refining: restart {progress.Restart + 1}, iteration {progress.Iteration}, objective {progress.Objective:F4}"),

@@ -215,6 +215,18 @@ public sealed class GroupCommandTests : IDisposable
     }
 
     [Fact]
+    public async Task Group_RequiredOptionMissing_ErrorAndWhereToLookNotTheWholeHelpPage()
+    {
+        string documents = WriteDocuments("d.jsonl", 3, withEmbeddings: true);
+
+        var (exitCode, output, error) = await CliRun.RunAsync(new FakeGrouping().Call, "group", "-i", documents);
+
+        Assert.Equal(ExitCodes.BadInput, exitCode);
+        Assert.Equal(["Option '--groups' is required.", "Run 'topicgroups group --help' to see the options."], CliRun.Lines(error));
+        Assert.DoesNotContain("Usage:", output + error);
+    }
+
+    [Fact]
     public async Task Group_ServiceRejectsWithFieldViolations_StatusThenEachViolationOnItsOwnLineExitTwo()
     {
         var badRequest = new BadRequest();
