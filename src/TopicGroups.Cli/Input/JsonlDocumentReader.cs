@@ -34,7 +34,7 @@ internal static class JsonlDocumentReader
                 continue;
             }
 
-            Document document = ParseLine(line.Span, fileName, lineNumber, readEmbeddings);
+            Document document = ParseLine(line.Span, fileName, lineNumber, readEmbeddings, expectedDimensions: dimensions);
             if (lineOfId.TryGetValue(document.Id, out int earlierLine))
             {
                 throw new InputException(
@@ -68,7 +68,7 @@ internal static class JsonlDocumentReader
         return new JsonlDocuments(fileName, documents, lineNumbers, dimensions);
     }
 
-    private static Document ParseLine(ReadOnlySpan<byte> line, string fileName, int lineNumber, bool readEmbeddings)
+    private static Document ParseLine(ReadOnlySpan<byte> line, string fileName, int lineNumber, bool readEmbeddings, int expectedDimensions)
     {
         string where = $"{fileName} line {lineNumber}";
         var reader = new Utf8JsonReader(line, new JsonReaderOptions { CommentHandling = JsonCommentHandling.Disallow, AllowMultipleValues = true });
@@ -96,6 +96,7 @@ internal static class JsonlDocumentReader
                 else if (readEmbeddings && reader.ValueTextEquals("embedding"u8))
                 {
                     document.Embedding.Clear();
+                    document.Embedding.Capacity = Math.Max(document.Embedding.Capacity, expectedDimensions); // one allocation once the length is known
                     ReadEmbedding(ref reader, where, document);
                     sawEmbedding = true;
                 }
