@@ -4,6 +4,7 @@ using TopicGroups.Benchmarks;
 // Quick modes (plain stopwatch, seconds):
 //   gflops [n d k]      the assignment kernel's GFLOP/s per path, default 100000 384 100, plus the FMA peak
 //   fit [threads]       full fits: 20k x 384 k = 32 and 100k x 384 k = 100, 20 iterations, 1 restart
+//   seeding [threads]   the same fits with k-means++ on every row and on the seeding sample, 3 seeds each
 // Anything else goes to BenchmarkDotNet, e.g. `-- --filter *BlockScores*`.
 if (args.Length > 0 && args[0] == "gflops")
 {
@@ -19,6 +20,18 @@ if (args.Length > 0 && args[0] == "fit")
     int threads = args.Length > 1 ? int.Parse(args[1]) : Environment.ProcessorCount;
     QuickMeasurements.Fit(20_000, 384, 32, iterations: 20, threads);
     QuickMeasurements.Fit(100_000, 384, 100, iterations: 20, threads);
+    return 0;
+}
+
+if (args.Length > 0 && args[0] == "seeding")
+{
+    int threads = args.Length > 1 ? int.Parse(args[1]) : Environment.ProcessorCount;
+    QuickMeasurements.SeedingComparisonSeeds = args.Length > 2 ? ulong.Parse(args[2]) : 3;
+    QuickMeasurements.Seeding(20_000, 384, 32, iterations: 20, threads);
+    if (args.Length <= 3 || args[3] != "small")
+    {
+        QuickMeasurements.Seeding(100_000, 384, 100, iterations: 20, threads);
+    }
     return 0;
 }
 

@@ -66,26 +66,52 @@ internal static class QuickMeasurements
     }
 
     /// <summary>Full fits on synthetic unit rows with exactly <paramref name="iterations"/> iterations and one restart.</summary>
-    public static void Fit(int n, int d, int k, int iterations, int threads)
+    public static void Fit(int n, int d, int k, int iterations, int threads, bool seedOnEveryRow = false, ulong seed = 1)
     {
-        (float[] values, _) = KernelData.Uniform(seed: 11, n, 1, d);
-        var matrix = new EmbeddingMatrix(values, n, d);
-        RowNormalisation.NormaliseInPlace(matrix);
+        EmbeddingMatrix matrix = ClusteredUnitRows(n, d, k);
         var options = new SphericalKMeansOptions
         {
             GroupCount = k,
             RestartCount = 1,
             MaxIterations = iterations,
             RunAllIterations = true,
-            Seed = 1,
+            Seed = seed,
             MaxDegreeOfParallelism = threads,
+            SeedOnEveryRow = seedOnEveryRow,
         };
 
         ClusteringResult result = SphericalKMeans.Fit(matrix, options);
         double iterationSeconds = result.IterationHistory.Sum(s => s.Elapsed.TotalSeconds);
         Console.WriteLine(
-            $"fit {n} x {d}, k = {k}, {iterations} iterations, {threads} thread(s): total {result.TotalTime.TotalMilliseconds:F0} ms, " +
+            $"fit {n} x {d}, k = {k}, {iterations} iterations, {threads} thread(s){(seedOnEveryRow ? ", seeding on every row" : "")}, seed {seed}: total {result.TotalTime.TotalMilliseconds:F0} ms, " +
             $"seeding {result.SeedingTime.TotalMilliseconds:F0} ms, iterations {iterationSeconds * 1000:F0} ms " +
             $"({iterationSeconds * 1000 / iterations:F1} ms each, {2.0 * n * d * k * iterations / iterationSeconds / 1e9:F1} GFLOP/s in assignment-equivalent flops), objective {result.Objective:F5}");
+    }
+
+    public static ulong SeedingComparisonSeeds { get; set; } = 3;
+
+    /// <summary>Sampled against whole-data k-means++ seeding: time and final objective, several seeds.</summary>
+    public static void Seeding(int n, int d, int k, int iterations, int threads)
+    {
+        for (ulong seed = 1; seed <= SeedingComparisonSeeds; seed++)
+        {
+            Fit(n, d, k, iterations, threads, seedOnEveryRow: true, seed);
+            Fit(n, d, k, iterations, threads, seedOnEveryRow: false, seed);
+        }
+    }
+
+    private static readonly Dictionary<(int, int, int), EmbeddingMatrix> Matrices = [];
+
+    /// <summary>Clustered synthetic rows (2k true directions of unequal size, noise 0.15 per coordinate), normalised; cached per shape.</summary>
+    private static EmbeddingMatrix ClusteredUnitRows(int n, int d, int k)
+    {
+        if (!Matrices.TryGetValue((n, d, k), out EmbeddingMatrix? matrix))
+        {
+            matrix = new EmbeddingMatrix(KernelData.Clustered(seed: 11, n, d, trueGroups: 2 * k, noise: 0.15), n, d);
+            RowNormalisation.NormaliseInPlace(matrix);
+            Matrices[(n, d, k)] = matrix;
+        }
+
+        return matrix;
     }
 }

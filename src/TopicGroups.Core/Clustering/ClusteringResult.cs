@@ -5,7 +5,11 @@ namespace TopicGroups.Core.Clustering;
 /// <param name="ReassignedCount">Rows whose group changed in this iteration's assignment step.</param>
 public readonly record struct IterationStats(int Iteration, double Objective, int ReassignedCount, TimeSpan Elapsed);
 
-/// <summary>What a progress callback hears: which restart and iteration, and the objective so far.</summary>
+/// <summary>
+/// What a progress callback hears: which restart and iteration, and the objective so far. For the Seeding
+/// stage (Iteration 0) the objective is the mean cosine to the nearest seed over the rows seeding drew from
+/// (every row, or the seeding sample of a large input).
+/// </summary>
 public readonly record struct ClusteringProgress(ClusteringStage Stage, int Restart, int Iteration, double Objective);
 
 public enum ClusteringStage

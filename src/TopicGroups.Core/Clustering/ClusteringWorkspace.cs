@@ -8,7 +8,7 @@ namespace TopicGroups.Core.Clustering;
 /// </summary>
 internal sealed class ClusteringWorkspace
 {
-    public ClusteringWorkspace(EmbeddingMatrix unitRows, int groupCount, int workerCount)
+    public ClusteringWorkspace(EmbeddingMatrix unitRows, int groupCount, int workerCount, bool sampleForSeeding)
     {
         Rows = unitRows.Values;
         N = unitRows.Rows;
@@ -34,8 +34,7 @@ internal sealed class ClusteringWorkspace
         GroupSizes = new int[K];
         Sums = new double[K * D];
 
-        MinDistance = new float[N];
-        IsSeed = new bool[N];
+        Seeding = new SeedingPool(Rows, N, D, K, workerCount, sampleForSeeding);
     }
 
     public float[] Rows { get; }
@@ -77,10 +76,8 @@ internal sealed class ClusteringWorkspace
     /// <summary>k × d, float64 sums of each group's member rows.</summary>
     public double[] Sums { get; }
 
-    /// <summary>Seeding: 1 − max cosine of each row to the seeds chosen so far.</summary>
-    public float[] MinDistance { get; }
-
-    public bool[] IsSeed { get; }
+    /// <summary>The rows k-means++ draws from (all, or a per-restart sample of large inputs).</summary>
+    public SeedingPool Seeding { get; }
 
     public ReadOnlySpan<float> Row(int i) => Rows.AsSpan(i * D, D);
 

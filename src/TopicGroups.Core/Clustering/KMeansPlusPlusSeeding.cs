@@ -11,64 +11,64 @@ namespace TopicGroups.Core.Clustering;
 internal static class KMeansPlusPlusSeeding
 {
     /// <summary>
-    /// Writes k seeds (copies of rows) into workspace.Centroids. Returns the seeding objective: the
-    /// mean cosine of each row to its nearest seed. Deterministic for a generator state and any thread
+    /// Writes k seeds (copies of pool rows) into <paramref name="centroids"/> (k × d). Returns the mean
+    /// cosine of each pool row to its nearest seed. Deterministic for a generator state and any thread
     /// count: the weights are summed per block and the draw walks blocks in order.
     /// </summary>
-    public static double Seed(ClusteringWorkspace ws, ref SplitMix64 random, CancellationToken cancellationToken)
+    public static double Seed(SeedingPool pool, float[] centroids, int k, ref SplitMix64 random, CancellationToken cancellationToken)
     {
-        int n = ws.N;
-        Array.Clear(ws.IsSeed);
-        Array.Fill(ws.MinDistance, float.PositiveInfinity);
+        int n = pool.N;
+        Array.Clear(pool.IsSeed);
+        Array.Fill(pool.MinDistance, float.PositiveInfinity);
 
         int first = random.NextInt(n);
-        TakeSeed(ws, 0, first);
-        double total = UpdateDistances(ws, 0);
-        for (int c = 1; c < ws.K; c++)
+        TakeSeed(pool, centroids, 0, first);
+        double total = UpdateDistances(pool, centroids, 0);
+        for (int c = 1; c < k; c++)
         {
             cancellationToken.ThrowIfCancellationRequested();
-            int chosen = total > 0 ? DrawWeighted(ws, random.NextDouble() * total) : DrawUnchosen(ws, ref random, c);
-            TakeSeed(ws, c, chosen);
-            total = UpdateDistances(ws, c);
+            int chosen = total > 0 ? DrawWeighted(pool, random.NextDouble() * total) : DrawUnchosen(pool, ref random, c);
+            TakeSeed(pool, centroids, c, chosen);
+            total = UpdateDistances(pool, centroids, c);
         }
 
         // Σ (1 − D) / n = mean cosine to the nearest seed.
         return (n - total) / n;
     }
 
-    private static void TakeSeed(ClusteringWorkspace ws, int seedIndex, int row)
+    private static void TakeSeed(SeedingPool pool, float[] centroids, int seedIndex, int row)
     {
-        ws.IsSeed[row] = true;
-        ws.Row(row).CopyTo(ws.Centroid(seedIndex));
+        pool.IsSeed[row] = true;
+        pool.Row(row).CopyTo(centroids.AsSpan(seedIndex * pool.D, pool.D));
     }
 
     /// <summary>Lowers each row's distance with seed <paramref name="seedIndex"/>; returns Σ distances, reduced in block order.</summary>
-    private static double UpdateDistances(ClusteringWorkspace ws, int seedIndex)
+    private static double UpdateDistances(SeedingPool pool, float[] centroids, int seedIndex)
     {
-        RowBlocks blocks = ws.Blocks;
-        blocks.ForEachBlock((block, _) => UpdateBlock(ws, seedIndex, block));
+        RowBlocks blocks = pool.Blocks;
+        blocks.ForEachBlock((block, _) => UpdateBlock(pool, centroids, seedIndex, block));
         double total = 0;
         for (int block = 0; block < blocks.Count; block++)
         {
-            total += ws.BlockObjective[block];
+            total += pool.BlockWeight[block];
         }
 
         return total;
     }
 
     [MethodImpl(MethodImplOptions.AggressiveOptimization)]
-    private static void UpdateBlock(ClusteringWorkspace ws, int seedIndex, int block)
+    private static void UpdateBlock(SeedingPool pool, float[] centroids, int seedIndex, int block)
     {
-        int d = ws.D;
-        float[] minDistance = ws.MinDistance;
-        ReadOnlySpan<float> seed = ws.Centroids.AsSpan(seedIndex * d, d);
-        int start = ws.Blocks.Start(block);
-        int end = start + ws.Blocks.Length(block);
+        int d = pool.D;
+        float[] minDistance = pool.MinDistance;
+        ReadOnlySpan<float> seed = centroids.AsSpan(seedIndex * d, d);
+        int start = pool.Blocks.Start(block);
+        int end = start + pool.Blocks.Length(block);
         double sum = 0;
         for (int i = start; i < end; i++)
         {
             // Clamped at 0: rounding can put a cosine a hair above 1.
-            float distance = MathF.Max(0f, 1f - TensorPrimitives.Dot(ws.Row(i), seed));
+            float distance = MathF.Max(0f, 1f - TensorPrimitives.Dot(pool.Row(i), seed));
             if (distance < minDistance[i])
             {
                 minDistance[i] = distance;
@@ -77,14 +77,14 @@ internal static class KMeansPlusPlusSeeding
             sum += minDistance[i];
         }
 
-        ws.BlockObjective[block] = sum;
+        pool.BlockWeight[block] = sum;
     }
 
     /// <summary>The first row whose cumulative weight exceeds <paramref name="target"/>; a chosen seed has weight 0 and is never drawn.</summary>
-    private static int DrawWeighted(ClusteringWorkspace ws, double target)
+    private static int DrawWeighted(SeedingPool pool, double target)
     {
-        RowBlocks blocks = ws.Blocks;
-        double[] partial = ws.BlockObjective;
+        RowBlocks blocks = pool.Blocks;
+        double[] partial = pool.BlockWeight;
         double cumulative = 0;
         int lastPositive = -1;
         for (int block = 0; block < blocks.Count; block++)
@@ -105,7 +105,7 @@ internal static class KMeansPlusPlusSeeding
             int lastInBlock = -1;
             for (int i = start; i < end; i++)
             {
-                float weight = ws.MinDistance[i];
+                float weight = pool.MinDistance[i];
                 if (weight <= 0f)
                 {
                     continue;
@@ -130,7 +130,7 @@ internal static class KMeansPlusPlusSeeding
         int from = blocks.Start(lastPositive);
         for (int i = from + blocks.Length(lastPositive) - 1; i >= from; i--)
         {
-            if (ws.MinDistance[i] > 0f)
+            if (pool.MinDistance[i] > 0f)
             {
                 return i;
             }
@@ -143,12 +143,12 @@ internal static class KMeansPlusPlusSeeding
     /// Every row coincides with a seed (fewer distinct rows than groups): a uniform draw among the rows
     /// not yet taken, so seeds stay distinct rows and every group starts with a member.
     /// </summary>
-    private static int DrawUnchosen(ClusteringWorkspace ws, ref SplitMix64 random, int seedsSoFar)
+    private static int DrawUnchosen(SeedingPool pool, ref SplitMix64 random, int seedsSoFar)
     {
-        int target = random.NextInt(ws.N - seedsSoFar);
-        for (int i = 0; i < ws.N; i++)
+        int target = random.NextInt(pool.N - seedsSoFar);
+        for (int i = 0; i < pool.N; i++)
         {
-            if (ws.IsSeed[i])
+            if (pool.IsSeed[i])
             {
                 continue;
             }

@@ -13,6 +13,8 @@ public static class SphericalKMeans
     /// Clusters unit-length rows. The rows must already be normalised (see RowNormalisation).
     /// Each restart seeds with k-means++ from its own generator (SplitMix64 stream r of Seed) and
     /// refines with Lloyd iterations; the restart with the highest objective is kept (the earliest on a tie).
+    /// Above max(8192, 256 × GroupCount) rows the seeds are drawn from a uniform sample of that many rows
+    /// (see SeedingPool); the iterations always use every row.
     /// </summary>
     /// <exception cref="ArgumentException">An option is out of range; the message names it.</exception>
     /// <exception cref="OperationCanceledException">The token was cancelled (checked between iterations and between seeds).</exception>
@@ -30,7 +32,7 @@ public static class SphericalKMeans
         int n = unitRows.Rows;
         int d = unitRows.Dimensions;
         int k = options.GroupCount;
-        var ws = new ClusteringWorkspace(unitRows, k, options.ResolveWorkerCount());
+        var ws = new ClusteringWorkspace(unitRows, k, options.ResolveWorkerCount(), !options.SeedOnEveryRow);
 
         // The kept run, copied out of the workspace whenever a restart beats it.
         float[] keptCentroids = new float[k * d];
@@ -53,10 +55,13 @@ public static class SphericalKMeans
             SplitMix64 random = SplitMix64.ForStream(options.Seed, restart);
 
             long seedingStart = Stopwatch.GetTimestamp();
-            double previousObjective = KMeansPlusPlusSeeding.Seed(ws, ref random, cancellationToken);
+            ws.Seeding.Draw(ref random);
+            double seedingObjective = KMeansPlusPlusSeeding.Seed(ws.Seeding, ws.Centroids, k, ref random, cancellationToken);
             seedingTicks += Stopwatch.GetTimestamp() - seedingStart;
-            progress?.Invoke(new ClusteringProgress(ClusteringStage.Seeding, restart, 0, previousObjective));
+            progress?.Invoke(new ClusteringProgress(ClusteringStage.Seeding, restart, 0, seedingObjective));
 
+            // A sample's objective says nothing exact about all rows, so the first iteration is never judged against it.
+            double previousObjective = ws.Seeding.IsSampled ? double.NegativeInfinity : seedingObjective;
             (double objective, bool converged) = Refine(ws, options, restart, previousObjective, history, progress, cancellationToken);
             restartObjectives[restart] = objective;
 
@@ -137,7 +142,9 @@ public static class SphericalKMeans
                 continue;
             }
 
-            double relativeGain = (objective - previousObjective) / Math.Max(Math.Abs(previousObjective), double.Epsilon);
+            double relativeGain = double.IsFinite(previousObjective)
+                ? (objective - previousObjective) / Math.Max(Math.Abs(previousObjective), double.Epsilon)
+                : double.PositiveInfinity;
             previousObjective = objective;
             if ((reassigned == 0 && repaired == 0) || relativeGain < options.ConvergenceTolerance)
             {

@@ -36,6 +36,12 @@ public sealed record SphericalKMeansOptions
     /// <value>The default is -1: all cores. Results do not depend on it.</value>
     public int MaxDegreeOfParallelism { get; init; } = -1;
 
+    /// <summary>
+    /// When set, k-means++ draws from every row even for large inputs instead of a per-restart sample of
+    /// max(8192, 256 × GroupCount) rows (for comparisons and benchmarks).
+    /// </summary>
+    internal bool SeedOnEveryRow { get; init; }
+
     internal void Validate(int rows)
     {
         if (GroupCount < 1)

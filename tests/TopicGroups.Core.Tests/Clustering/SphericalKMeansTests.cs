@@ -79,6 +79,25 @@ public sealed class SphericalKMeansTests
         }
     }
 
+    [Fact]
+    public void Fit_LargeInputSeededFromSample_RecoversGroupsSameForAnyThreadCount()
+    {
+        // 10,000 rows > the 8,192-row seeding sample, so k-means++ runs on a per-restart sample.
+        EmbeddingMatrix rows = TestData.UnitClusters(seed: 13, n: 10_000, d: 8, trueGroups: 4, noise: 0.05, out int[] labels);
+        var reports = new List<ClusteringProgress>();
+        ClusteringResult Run(int threads) => SphericalKMeans.Fit(
+            rows, new SphericalKMeansOptions { GroupCount = 4, Seed = 5, RestartCount = 2, MaxDegreeOfParallelism = threads }, reports.Add);
+
+        ClusteringResult single = Run(1);
+        ClusteringResult two = Run(2);
+
+        Assert.Equal(1.0, PartitionAgreement.AdjustedRandIndex(labels, single.Assignments), 12);
+        Assert.Equal(single.Assignments, two.Assignments);
+        Assert.True(single.Centroids.SequenceEqual(two.Centroids));
+        Assert.True(single.Converged);
+        Assert.All(reports.Where(p => p.Stage == ClusteringStage.Seeding), p => Assert.InRange(p.Objective, 0.5, single.Objective + 1e-6));
+    }
+
     [Theory]
     [InlineData(0UL)]
     [InlineData(5UL)]
