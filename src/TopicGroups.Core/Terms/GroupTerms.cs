@@ -3,8 +3,10 @@ namespace TopicGroups.Core.Terms;
 /// <summary>Top TF-IDF terms per group, weighed against the whole batch.</summary>
 /// <remarks>
 /// <para>Terms: see <see cref="Tokeniser"/> (Unicode letter/digit runs, lower-cased, single characters and
-/// pure digits dropped), minus ML.NET's English stop-word list; with <see cref="GroupTermsOptions.IncludeBigrams"/>,
-/// adjacent kept words of a document joined by a space are terms too.</para>
+/// pure digits dropped), minus ML.NET's English stop-word list (<see cref="StopWords"/>: 310 words; it lacks
+/// "you", "your" and "yet", which the weighting below usually removes as words common to every group); with
+/// <see cref="GroupTermsOptions.IncludeBigrams"/>, adjacent kept words of a document joined by a space are
+/// terms too.</para>
 /// <para>Weights, after Manning, Raghavan &amp; Schütze, Introduction to Information Retrieval (2008),
 /// ch. 6 (tf-idf, sublinear tf, cosine normalisation) and §17.7 (label a cluster by the heaviest terms of
 /// its centroid; differential labelling compares a cluster with the other clusters). The comparison
@@ -28,8 +30,9 @@ namespace TopicGroups.Core.Terms;
 /// so the difference removes it; a word concentrated in one group keeps most of its weight. Averaging
 /// unit-length vectors stops long documents from dominating, and the support rule stops a rare word
 /// in one document (whose idf is the highest possible) from labelling a whole group.</para>
-/// <para>Cost: one pass over the texts builds the vocabulary and integer documents; the rest is linear
-/// in the number of (document, term) pairs plus the vocabulary size per group.</para>
+/// <para>Cost: one pass over the texts builds the vocabulary and integer documents (chunks of texts on all
+/// cores, <see cref="TermCorpus"/>); the rest is linear in the number of (document, term) pairs, plus the
+/// terms each group touches, with groups spread over the cores. Results do not depend on the core count.</para>
 /// </remarks>
 public static class GroupTerms
 {
