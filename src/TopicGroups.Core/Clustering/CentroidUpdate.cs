@@ -1,5 +1,6 @@
 using System.Runtime.CompilerServices;
 using System.Runtime.Intrinsics;
+using System.Runtime.Intrinsics.X86;
 
 namespace TopicGroups.Core.Clustering;
 
@@ -16,22 +17,25 @@ internal static class CentroidUpdate
         }
     }
 
-    /// <summary>Dimensions per work item of the sum pass: 64 float64 sums per group stay in L1/L2 while rows stream by.</summary>
-    private const int SliceWidth = 64;
-
     /// <summary>
     /// Recomputes every centroid from the current assignments and returns the objective for them:
     /// Σ_c ‖s_c‖ / n, which equals the mean cosine of each row to its new centroid because
-    /// Σ_{i ∈ c} x_i · s_c / ‖s_c‖ = ‖s_c‖. The sums are float64 and split by dimension slices, each slice
-    /// adding rows in ascending order, so every sum is formed in the same order for any thread count.
-    /// GroupSizes must be current and no group empty.
+    /// Σ_{i ∈ c} x_i · s_c / ‖s_c‖ = ‖s_c‖. The sums are float64; each thread owns a contiguous slice of
+    /// the dimensions and adds every row's slice in ascending row order, so each sum element is formed
+    /// in the same order however the dimensions are split: the result does not depend on the thread count.
+    /// (Slices are one per thread, not narrow: narrow slices read each row in short strided pieces, which
+    /// measured 4–6× slower than whole rows.) GroupSizes must be current and no group empty.
     /// </summary>
     public static double Update(ClusteringWorkspace ws)
     {
         int k = ws.K;
         int d = ws.D;
-        int slices = (d + SliceWidth - 1) / SliceWidth;
-        ws.Blocks.ForEach(slices, (slice, _) => SumSlice(ws, slice));
+        const int alignment = 8;
+        int slices = Math.Max(1, Math.Min(ws.Blocks.WorkerCount, d / alignment));
+        int sliceWidth = (d + slices - 1) / slices;
+        sliceWidth = (sliceWidth + alignment - 1) / alignment * alignment;
+        slices = (d + sliceWidth - 1) / sliceWidth;
+        ws.Blocks.ForEach(slices, (slice, _) => SumSlice(ws, slice * sliceWidth, Math.Min(sliceWidth, d - slice * sliceWidth)));
 
         double total = 0;
         for (int c = 0; c < k; c++)
@@ -43,11 +47,9 @@ internal static class CentroidUpdate
     }
 
     [MethodImpl(MethodImplOptions.AggressiveOptimization)]
-    private static void SumSlice(ClusteringWorkspace ws, int slice)
+    private static void SumSlice(ClusteringWorkspace ws, int from, int width)
     {
         int d = ws.D;
-        int from = slice * SliceWidth;
-        int width = Math.Min(SliceWidth, d - from);
         double[] sums = ws.Sums;
         for (int c = 0; c < ws.K; c++)
         {
@@ -94,33 +96,41 @@ internal static class CentroidUpdate
         return norm;
     }
 
-    /// <summary>sum[p] += row[p], widening float32 to float64.</summary>
-    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
-    internal static void AddWidened(ReadOnlySpan<float> row, Span<double> sum)
+    /// <summary>sum[p] += row[p], widening float32 to float64 (8 values per instruction with AVX-512, 4 with AVX).</summary>
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    internal static unsafe void AddWidened(ReadOnlySpan<float> row, Span<double> sum)
     {
-        int p = 0;
-        if (Vector512.IsHardwareAccelerated)
+        if (sum.Length < row.Length)
         {
-            for (; p <= row.Length - Vector512<float>.Count; p += Vector512<float>.Count)
-            {
-                (Vector512<double> lower, Vector512<double> upper) = Vector512.Widen(Vector512.Create(row.Slice(p)));
-                (Vector512.Create<double>(sum.Slice(p)) + lower).CopyTo(sum.Slice(p));
-                (Vector512.Create<double>(sum.Slice(p + Vector512<double>.Count)) + upper).CopyTo(sum.Slice(p + Vector512<double>.Count));
-            }
-        }
-        else if (Vector256.IsHardwareAccelerated)
-        {
-            for (; p <= row.Length - Vector256<float>.Count; p += Vector256<float>.Count)
-            {
-                (Vector256<double> lower, Vector256<double> upper) = Vector256.Widen(Vector256.Create(row.Slice(p)));
-                (Vector256.Create<double>(sum.Slice(p)) + lower).CopyTo(sum.Slice(p));
-                (Vector256.Create<double>(sum.Slice(p + Vector256<double>.Count)) + upper).CopyTo(sum.Slice(p + Vector256<double>.Count));
-            }
+            throw new ArgumentException($"sum has {sum.Length} slots for {row.Length} values.", nameof(sum));
         }
 
-        for (; p < row.Length; p++)
+        int length = row.Length;
+        int p = 0;
+        fixed (float* source = row)
+        fixed (double* target = sum)
         {
-            sum[p] += row[p];
+            if (Avx512F.IsSupported)
+            {
+                for (; p + Vector256<float>.Count <= length; p += Vector256<float>.Count)
+                {
+                    Vector512<double> wide = Avx512F.ConvertToVector512Double(Vector256.Load(source + p));
+                    (Vector512.Load(target + p) + wide).Store(target + p);
+                }
+            }
+            else if (Avx.IsSupported)
+            {
+                for (; p + Vector128<float>.Count <= length; p += Vector128<float>.Count)
+                {
+                    Vector256<double> wide = Avx.ConvertToVector256Double(Vector128.Load(source + p));
+                    (Vector256.Load(target + p) + wide).Store(target + p);
+                }
+            }
+
+            for (; p < length; p++)
+            {
+                target[p] += source[p];
+            }
         }
     }
 }
