@@ -23,8 +23,8 @@ namespace TopicGroups.Core.Terms;
 /// weight(t,g) = c_g(t) − c_¬g(t)                        (or c_g(t) alone when CompareWithRestOfBatch is false)
 /// </code>
 /// <para>A term is listed for g only if weight(t, g) &gt; 1e-12 and, when |g| &gt; m = MinimumDocumentsPerTerm,
-/// at least m documents of g contain it. Lists are ordered by weight, highest first; equal weights keep the
-/// order in which the terms first occur in the batch.</para>
+/// at least m documents of g contain it. Lists are ordered by weight, highest first; equal weights by term
+/// id (words in order of first occurrence in the batch, then word pairs), so the same input gives the same lists.</para>
 /// <para>Why this shape: a word in nearly every document has idf near 0; a word spread evenly over all
 /// groups ("thanks", "hello", "issue") has about the same centroid weight inside the group as outside it,
 /// so the difference removes it; a word concentrated in one group keeps most of its weight. Averaging
@@ -193,7 +193,7 @@ public static class GroupTerms
         public PriorityQueue<int, RankKey> Best { get; } = new(RankKey.WorstFirst);   // the TermCount best so far; worst on top
     }
 
-    /// <summary>A candidate's place: higher weight is better; at equal weight the lower term id (seen first) is better.</summary>
+    /// <summary>A candidate's place: higher weight is better; at equal weight the lower term id (see TermCorpus) is better.</summary>
     private readonly record struct RankKey(double Weight, int TermId)
     {
         /// <summary>Orders worse before better, so a priority queue's top is the candidate to drop.</summary>

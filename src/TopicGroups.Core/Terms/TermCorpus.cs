@@ -10,11 +10,12 @@ namespace TopicGroups.Core.Terms;
 /// </summary>
 /// <remarks>
 /// <para>Terms are the tokens of <see cref="Tokeniser"/> minus <see cref="StopWords.English"/>; with bigrams on,
-/// each pair of adjacent kept tokens in a document ("password reset") is one more term. Unigrams and
-/// bigrams share one id space.</para>
+/// each pair of adjacent kept tokens in a document ("password reset") is one more term. Words and pairs
+/// share one id space: words first, numbered in order of first occurrence in the batch, then pairs.</para>
 /// <para>Building reads each text once. Texts are cut into chunks of <see cref="ChunkSize"/> documents, each
 /// chunk tokenised with its own vocabulary on any free core, then the chunk vocabularies are merged in chunk
-/// order. Ids therefore number terms by first occurrence chunk by chunk, the same for any thread count.</para>
+/// order (pairs in a fixed number of hash partitions, see <see cref="MergeWordPairs"/>). Chunk size and
+/// partition count are constants, so the ids are the same for any number of cores.</para>
 /// </remarks>
 internal sealed class TermCorpus
 {
@@ -24,23 +25,26 @@ internal sealed class TermCorpus
     private const int StopWordId = -1;
     private const int CancellationCheckInterval = 256;
 
-    private readonly string?[] _unigramTexts;   // per term id: the word, or null for a bigram
-    private readonly long[] _bigramParts;        // per term id: (first << 32) | second for a bigram, else -1
+    /// <summary>Word pairs are split over this many hash partitions while merging (a constant: see <see cref="MergeWordPairs"/>).</summary>
+    private const int PairPartitionCount = 8;
 
-    private TermCorpus(int documentCount, int[] documentStarts, int[] termIds, int[] termCounts, string?[] unigramTexts, long[] bigramParts)
+    private readonly string[] _words;      // term ids 0 .. W-1 are words
+    private readonly long[] _pairKeys;     // term id W + j is the pair _pairKeys[j] = (first word id << 32) | second
+
+    private TermCorpus(int documentCount, int[] documentStarts, int[] termIds, int[] termCounts, string[] words, long[] pairKeys)
     {
         DocumentCount = documentCount;
         DocumentStarts = documentStarts;
         TermIds = termIds;
         TermCounts = termCounts;
-        _unigramTexts = unigramTexts;
-        _bigramParts = bigramParts;
+        _words = words;
+        _pairKeys = pairKeys;
     }
 
     public int DocumentCount { get; }
 
     /// <summary>Number of distinct terms (unigrams and bigrams) in the batch.</summary>
-    public int VocabularySize => _unigramTexts.Length;
+    public int VocabularySize => _words.Length + _pairKeys.Length;
 
     /// <summary>Length DocumentCount + 1; row i spans [DocumentStarts[i], DocumentStarts[i + 1]).</summary>
     public int[] DocumentStarts { get; }
@@ -56,13 +60,13 @@ internal sealed class TermCorpus
     /// <summary>The term's text; a bigram's two words are joined by one space (built on each call).</summary>
     public string TermText(int termId)
     {
-        if (_unigramTexts[termId] is { } word)
+        if (termId < _words.Length)
         {
-            return word;
+            return _words[termId];
         }
 
-        long parts = _bigramParts[termId];
-        return string.Concat(_unigramTexts[First(parts)], " ", _unigramTexts[Second(parts)]);
+        long pair = _pairKeys[termId - _words.Length];
+        return string.Concat(_words[First(pair)], " ", _words[Second(pair)]);
     }
 
     /// <summary>df(t): in how many documents each term occurs.</summary>
@@ -90,10 +94,7 @@ internal sealed class TermCorpus
         });
         cancellationToken.ThrowIfCancellationRequested();
 
-        // Merge the chunk vocabularies in chunk order. A chunk's bigram ids come after the ids of both its
-        // words, so the words are already mapped when the bigram is reached.
-        // Sizes: the largest chunk vocabulary is a lower bound on the batch's; bigrams are mostly new in each
-        // chunk, so their sum over chunks is the estimate (an upper bound) that saves rehashing millions.
+        // Words: merge the chunk vocabularies in chunk order (a chunk holds a few thousand distinct words).
         int largestChunkVocabulary = 0;
         int bigramsOverChunks = 0;
         foreach (Chunk chunk in chunks)
@@ -103,51 +104,39 @@ internal sealed class TermCorpus
         }
 
         var vocabulary = new Dictionary<string, int>(largestChunkVocabulary, StringComparer.Ordinal);
-        var bigramIds = new Dictionary<long, int>(bigramsOverChunks, PairKeyComparer.Instance);
-        var unigramTexts = new List<string?>(largestChunkVocabulary + bigramsOverChunks);
-        var bigramParts = new List<long>(unigramTexts.Capacity);
-        var globalIdOf = new int[chunkCount][];
-        var postingStarts = new int[chunkCount + 1];
+        var words = new List<string>(largestChunkVocabulary);
+        var globalIdOf = new int[chunkCount][];   // per chunk, per chunk-local id: the batch id
         for (int c = 0; c < chunkCount; c++)
         {
             cancellationToken.ThrowIfCancellationRequested();
-            Chunk chunk = chunks[c];
-            int[] map = new int[chunk.UnigramTexts.Count];
+            List<string?> localTexts = chunks[c].UnigramTexts;
+            int[] map = new int[localTexts.Count];
             for (int local = 0; local < map.Length; local++)
             {
-                int id;
-                if (chunk.UnigramTexts[local] is { } word)
+                if (localTexts[local] is { } word)
                 {
                     ref int slot = ref CollectionsMarshal.GetValueRefOrAddDefault(vocabulary, word, out bool exists);
                     if (!exists)
                     {
-                        slot = unigramTexts.Count;
-                        unigramTexts.Add(word);
-                        bigramParts.Add(-1);
+                        slot = words.Count;
+                        words.Add(word);
                     }
 
-                    id = slot;
+                    map[local] = slot;
                 }
-                else
-                {
-                    long parts = chunk.BigramParts[local];
-                    long key = PairKey(map[First(parts)], map[Second(parts)]);
-                    ref int slot = ref CollectionsMarshal.GetValueRefOrAddDefault(bigramIds, key, out bool exists);
-                    if (!exists)
-                    {
-                        slot = unigramTexts.Count;
-                        unigramTexts.Add(null);
-                        bigramParts.Add(key);
-                    }
-
-                    id = slot;
-                }
-
-                map[local] = id;
             }
 
             globalIdOf[c] = map;
-            postingStarts[c + 1] = postingStarts[c] + chunk.PostingCount;
+        }
+
+        long[] pairKeys = includeBigrams
+            ? MergeWordPairs(chunks, globalIdOf, words.Count, bigramsOverChunks, cancellationToken)
+            : [];
+
+        var postingStarts = new int[chunkCount + 1];
+        for (int c = 0; c < chunkCount; c++)
+        {
+            postingStarts[c + 1] = postingStarts[c] + chunks[c].PostingCount;
         }
 
         int postings = postingStarts[chunkCount];
@@ -172,8 +161,100 @@ internal sealed class TermCorpus
             }
         });
 
-        return new TermCorpus(n, documentStarts, termIds, termCounts, unigramTexts.ToArray(), bigramParts.ToArray());
+        return new TermCorpus(n, documentStarts, termIds, termCounts, words.ToArray(), pairKeys);
     }
+
+    /// <summary>
+    /// Numbers the word pairs of all chunks and fills in their batch ids in <paramref name="globalIdOf"/>.
+    /// A pair's key is the pair of batch word ids. Keys are split by hash into <see cref="PairPartitionCount"/>
+    /// partitions, each numbered on its own core in chunk order; the partitions follow the words end to end.
+    /// The partition count is a constant, so ids never depend on the core count.
+    /// </summary>
+    /// <returns>Per pair id minus the word count: its key.</returns>
+    private static long[] MergeWordPairs(Chunk[] chunks, int[][] globalIdOf, int wordCount, int bigramsOverChunks, CancellationToken cancellationToken)
+    {
+        int chunkCount = chunks.Length;
+        var keysOf = new long[chunkCount][];   // per chunk, per chunk-local id: the pair's key, or -1 for a word
+        Parallel.For(0, chunkCount, c =>
+        {
+            List<long> localParts = chunks[c].BigramParts;
+            int[] map = globalIdOf[c];
+            var keys = new long[localParts.Count];
+            for (int local = 0; local < keys.Length; local++)
+            {
+                long parts = localParts[local];
+                keys[local] = parts < 0 ? -1 : PairKey(map[First(parts)], map[Second(parts)]);
+            }
+
+            keysOf[c] = keys;
+        });
+        cancellationToken.ThrowIfCancellationRequested();
+
+        var partitionKeys = new List<long>[PairPartitionCount];
+        Parallel.For(0, PairPartitionCount, partition =>
+        {
+            // Sums over chunks overcount pairs seen in several chunks: an upper bound that avoids rehashing.
+            var ids = new Dictionary<long, int>(bigramsOverChunks / PairPartitionCount + 16, PairKeyComparer.Instance);
+            var keys = new List<long>();
+            for (int c = 0; c < chunkCount; c++)
+            {
+                long[] keysOfChunk = keysOf[c];
+                int[] map = globalIdOf[c];
+                for (int local = 0; local < keysOfChunk.Length; local++)
+                {
+                    long key = keysOfChunk[local];
+                    if (key < 0 || PartitionOf(key) != partition)
+                    {
+                        continue;
+                    }
+
+                    ref int slot = ref CollectionsMarshal.GetValueRefOrAddDefault(ids, key, out bool exists);
+                    if (!exists)
+                    {
+                        slot = keys.Count;
+                        keys.Add(key);
+                    }
+
+                    map[local] = slot;   // the index within the partition; the partition's start is added below
+                }
+            }
+
+            partitionKeys[partition] = keys;
+        });
+        cancellationToken.ThrowIfCancellationRequested();
+
+        var partitionStarts = new int[PairPartitionCount + 1];
+        partitionStarts[0] = wordCount;
+        for (int partition = 0; partition < PairPartitionCount; partition++)
+        {
+            partitionStarts[partition + 1] = partitionStarts[partition] + partitionKeys[partition].Count;
+        }
+
+        Parallel.For(0, chunkCount, c =>
+        {
+            long[] keysOfChunk = keysOf[c];
+            int[] map = globalIdOf[c];
+            for (int local = 0; local < keysOfChunk.Length; local++)
+            {
+                if (keysOfChunk[local] >= 0)
+                {
+                    map[local] += partitionStarts[PartitionOf(keysOfChunk[local])];
+                }
+            }
+        });
+
+        var pairKeys = new long[partitionStarts[PairPartitionCount] - wordCount];
+        for (int partition = 0; partition < PairPartitionCount; partition++)
+        {
+            partitionKeys[partition].CopyTo(pairKeys, partitionStarts[partition] - wordCount);
+        }
+
+        return pairKeys;
+    }
+
+    // Top three bits of a multiplicative hash with a multiplier other than PairKeyComparer's, so a partition's
+    // keys still spread over its dictionary's buckets.
+    private static int PartitionOf(long pairKey) => (int)((ulong)pairKey * 0xD6E8_FEB8_6659_FD93UL >> 61);
 
     private static long PairKey(int first, int second) => ((long)first << 32) | (uint)second;
 
