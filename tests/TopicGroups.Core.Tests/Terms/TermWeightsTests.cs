@@ -82,8 +82,9 @@ public sealed class TermWeightsTests
     public void InverseDocumentFrequencies_TextbookCollection_MatchesPublishedIdfValues()
     {
         // Manning, Raghavan & Schütze, Introduction to Information Retrieval (2008), §6.2.1, Figure 6.8: idf in
-        // Reuters-RCV1 (N = 806,791) with log base 10. Values from memory: car df 18,165 idf 1.65;
-        // auto 6,723 2.08; insurance 19,241 1.62; best 25,235 1.5. Ours uses ln, so divide by ln 10.
+        // Reuters-RCV1 (N = 806,791) with log base 10. Values, section and figure numbers from memory:
+        // car df 18,165 idf 1.65; auto 6,723 2.08; insurance 19,241 1.62; best 25,235 1.5.
+        // Ours uses ln, so divide by ln 10.
         double[] idf = TermWeights.InverseDocumentFrequencies(806_791, [18_165, 6_723, 19_241, 25_235]);
 
         double[] base10 = idf.Select(value => value / Math.Log(10)).ToArray();
@@ -97,8 +98,8 @@ public sealed class TermWeightsTests
     [Fact]
     public void DocumentWeights_SublinearNormalised_MatchesTextbookLtcQueryVector()
     {
-        // Manning, Raghavan & Schütze (2008), §6.4.4, Example 6.4 (values from memory): N = 1,000,000 and
-        // df(auto) = 5,000, df(best) = 50,000, df(car) = 10,000, df(insurance) = 1,000; the query "best car
+        // Manning, Raghavan & Schütze (2008), §6.4.3, Example 6.4 (values and section number from memory):
+        // N = 1,000,000 and df(auto) = 5,000, df(best) = 50,000, df(car) = 10,000, df(insurance) = 1,000; the query "best car
         // insurance" weighted ltc has normalised weights best 0.34, car 0.52, insurance 0.78. Every tf is 1,
         // so the log base cancels in the normalisation. The same df/N ratios at N = 1,000: best in 50
         // documents, car in 10, insurance in 1, auto in 5; the rest hold only "filler", whose weight is 0.
