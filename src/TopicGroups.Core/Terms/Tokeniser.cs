@@ -9,8 +9,10 @@ namespace TopicGroups.Core.Terms;
 /// <item>A token is a maximal run of Unicode letters (categories Lu, Ll, Lt, Lm, Lo), decimal digits (Nd)
 /// and combining marks (Mn, Mc, Me, so accents written as separate code points and the vowel signs of
 /// Indic scripts stay inside their word). Everything else (spaces, punctuation, symbols, emoji, other
-/// numerals, unpaired surrogates) separates tokens, so "don't" gives "don" and "t", and "e-mail" gives
-/// "e" and "mail".</item>
+/// numerals, unpaired surrogates) separates tokens, so "e-mail" gives "e" and "mail".</item>
+/// <item>An apostrophe (' or U+2019) between letters is read with the letters after it: a possessive
+/// "'s" is dropped and the word before it kept ("customer's" gives "customer"); any other suffix marks a
+/// contraction ("don't", "I've", "couldn't"), a function word, and the whole token is dropped.</item>
 /// <item>Each code point is lower-cased with the invariant culture's simple case mapping.</item>
 /// <item>A token is dropped when it has fewer than two letters or digits (a single character), when it
 /// has no letter at all (pure digits such as order numbers and years), or when it is longer than
@@ -79,9 +81,24 @@ internal ref struct TokenReader
             int lettersAndDigits = 0;
             bool hasLetter = false;
             bool tooLong = false;
+            bool contraction = false;
             while (position < text.Length)
             {
                 char c = text[position];
+                if ((c == '\'' || c == '\u2019') && written > 0 && position + 1 < text.Length && char.IsAsciiLetter(text[position + 1]))
+                {
+                    int suffixStart = position + 1;
+                    position = suffixStart;
+                    while (position < text.Length && char.IsAsciiLetter(text[position]))
+                    {
+                        position++;
+                    }
+
+                    bool possessive = position - suffixStart == 1 && (text[suffixStart] | 0x20) == 's';
+                    contraction = !possessive;
+                    break;
+                }
+
                 if (c < 0x80)
                 {
                     // ASCII fast path: letters, digits, nothing else.
@@ -134,7 +151,7 @@ internal ref struct TokenReader
                 }
             }
 
-            if (lettersAndDigits >= 2 && hasLetter && !tooLong)
+            if (lettersAndDigits >= 2 && hasLetter && !tooLong && !contraction)
             {
                 _position = position;
                 _length = written;
