@@ -37,5 +37,6 @@ internal static class Program
             GroupCommand.Create(grouping),
             EmbedCommand.Create(),
             DemoCommand.Create(grouping),
+            BenchCommand.Create(),
         };
 }
