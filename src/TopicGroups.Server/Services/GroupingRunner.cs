@@ -35,8 +35,15 @@ internal sealed class GroupingRunner
         _activeRuns.Add(1);
         try
         {
+            // A dedicated thread, not a pool thread: a run lasts seconds to minutes, and its parallel loops then
+            // queue their work to the pool's global queue behind timers and I/O callbacks instead of ahead of
+            // them. Run from a pool thread, a long run was seen to hold back deadline timers for minutes.
             // The awaited task ends only when Run returns or throws, so the counter tracks real CPU work.
-            return await Task.Run(() => _pipeline.Run(input, progress, cancellationToken), cancellationToken);
+            return await Task.Factory.StartNew(
+                () => _pipeline.Run(input, progress, cancellationToken),
+                cancellationToken,
+                TaskCreationOptions.LongRunning,
+                TaskScheduler.Default);
         }
         catch (OperationCanceledException) when (cancellationToken.IsCancellationRequested)
         {

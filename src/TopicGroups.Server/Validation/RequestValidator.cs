@@ -101,7 +101,7 @@ internal sealed class RequestValidator
         _documents.Clear(); // the proto copies of the embeddings can go now
         var embeddings = new EmbeddingMatrix(values, n, d);
 
-        // The Core's own test is the last word: it also catches lengths that overflow float32.
+        // The Core decides what it can normalise; its check is the last word should its rules grow.
         if (RowNormalisation.FindInvalidRow(embeddings, out string? reason) is int row)
         {
             throw StatusErrors.InvalidArgument(

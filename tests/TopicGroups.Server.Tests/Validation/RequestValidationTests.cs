@@ -132,17 +132,20 @@ public sealed class RequestValidationTests(TestHost host) : IClassFixture<TestHo
         Assert.Contains("all zeros", violation.Description);
     }
 
-    [Fact]
-    public async Task GroupDocuments_LengthOverflowsFloat32_FieldViolationFromCoreCheck()
+    [Theory]
+    [InlineData(3e38f)]    // squared length overflows float32
+    [InlineData(1e-30f)]   // squared length underflows to 0
+    public async Task GroupDocuments_ExtremeButFiniteValues_AcceptedAndPlacedByDirection(float scale)
     {
-        // Finite values whose squared sum overflows float32: only the Core's norm check can see this.
-        var documents = TestBatches.Valid(4, d: 3);
-        documents[0] = TestBatches.Make("huge", 3e38f, 3e38f, 3e38f);
+        var documents = TestBatches.Valid(4, d: 3);   // directions (1, .5, 0), (0, 1, .5), (.5, 0, 1), (1, .5, 0)
+        documents[3] = TestBatches.Make("scaled", scale, 0.5f * scale, 0f);   // same direction as documents[0]
+        var request = new GroupDocumentsRequest { Options = Groups(3) };
+        request.Documents.AddRange(documents);
 
-        RpcException error = await GroupFailsAsync(documents, Groups(2));
+        GroupDocumentsResponse response = await host.Client.GroupDocumentsAsync(request);
 
-        var violation = RpcAssert.Single(error, "documents[0].embedding");
-        Assert.Contains("unit length", violation.Description);
+        Assert.Equal(response.Documents[0].GroupId, response.Documents[3].GroupId);
+        Assert.Equal(1f, response.Documents[3].Similarity, 1e-5f);
     }
 
     [Theory]
