@@ -67,6 +67,7 @@ public static class ServerHost
 
     internal static void MapEndpoints(WebApplication app)
     {
+        app.UseReceiveLimitMessage();
         app.MapGrpcService<TopicGroupsGrpcService>();
         app.MapGrpcHealthChecksService();
         app.MapGrpcReflectionService();

@@ -1,4 +1,5 @@
 using Grpc.Core;
+using Grpc.Net.Client;
 using Microsoft.AspNetCore.Hosting;
 using Microsoft.AspNetCore.Mvc.Testing;
 using TopicGroups.Protos.V1;
@@ -95,7 +96,28 @@ public sealed class RequestLimitsTests(SmallLimitsHost host) : IClassFixture<Sma
         RpcException error = await RpcAssert.FailsAsync(
             StatusCode.ResourceExhausted, async () => await host.Client.GroupDocumentsAsync(request));
 
-        Assert.Contains("message size", error.Status.Detail);
+        Assert.Contains("larger than this server accepts (4096 bytes, TopicGroups:Limits:MaxMessageBytes)", error.Status.Detail);
+        Assert.Contains("StreamGroupDocuments", error.Status.Detail);
+    }
+
+    [Fact]
+    public async Task GroupDocuments_MessageLargerThanReceiveLimitOverRealSocket_MessageStatesLimit()
+    {
+        // Kestrel over loopback HTTP/2 sends the refusal as a real trailers-only response.
+        var app = ServerHost.Build(["--TopicGroups:Limits:MaxMessageBytes=4096", "--Logging:LogLevel:Default=Warning"], port: 0);
+        await app.StartAsync();
+        await using var _ = app;
+        using var channel = GrpcChannel.ForAddress(app.Urls.First());
+        var client = new TopicGroupsService.TopicGroupsServiceClient(channel);
+        var request = new GroupDocumentsRequest { Options = new GroupingOptions { GroupCount = 1 } };
+        request.Documents.Add(TestBatches.Make("long", 1f, 0f));
+        request.Documents[0].Text = new string('t', 5000);
+
+        RpcException error = await RpcAssert.FailsAsync(
+            StatusCode.ResourceExhausted, async () => await client.GroupDocumentsAsync(request));
+
+        Assert.Contains("(4096 bytes, TopicGroups:Limits:MaxMessageBytes)", error.Status.Detail);
+        await app.StopAsync();
     }
 
     [Fact]
