@@ -27,6 +27,12 @@ public static class SphericalKMeans
         ArgumentNullException.ThrowIfNull(unitRows);
         ArgumentNullException.ThrowIfNull(options);
         options.Validate(unitRows.Rows);
+        if (options.InitialCentroids is float[] initialCentroids && initialCentroids.Length != options.GroupCount * unitRows.Dimensions)
+        {
+            throw new ArgumentException(
+                $"InitialCentroids has {initialCentroids.Length} values; give GroupCount × d = {options.GroupCount} × {unitRows.Dimensions} values.",
+                nameof(options));
+        }
 
         long fitStart = Stopwatch.GetTimestamp();
         int n = unitRows.Rows;
@@ -54,14 +60,25 @@ public static class SphericalKMeans
             cancellationToken.ThrowIfCancellationRequested();
             SplitMix64 random = SplitMix64.ForStream(options.Seed, restart);
 
-            long seedingStart = Stopwatch.GetTimestamp();
-            ws.Seeding.Draw(ref random);
-            double seedingObjective = KMeansPlusPlusSeeding.Seed(ws.Seeding, ws.Centroids, k, ref random, cancellationToken);
-            seedingTicks += Stopwatch.GetTimestamp() - seedingStart;
-            progress?.Invoke(new ClusteringProgress(ClusteringStage.Seeding, restart, 0, seedingObjective));
+            double previousObjective;
+            if (restart == 0 && options.InitialCentroids is float[] initial)
+            {
+                // Warm start: the given centres replace the seeds; the first iteration is never judged against them.
+                initial.CopyTo(ws.Centroids, 0);
+                previousObjective = double.NegativeInfinity;
+            }
+            else
+            {
+                long seedingStart = Stopwatch.GetTimestamp();
+                ws.Seeding.Draw(ref random);
+                double seedingObjective = KMeansPlusPlusSeeding.Seed(ws.Seeding, ws.Centroids, k, ref random, cancellationToken);
+                seedingTicks += Stopwatch.GetTimestamp() - seedingStart;
+                progress?.Invoke(new ClusteringProgress(ClusteringStage.Seeding, restart, 0, seedingObjective));
 
-            // A sample's objective says nothing exact about all rows, so the first iteration is never judged against it.
-            double previousObjective = ws.Seeding.IsSampled ? double.NegativeInfinity : seedingObjective;
+                // A sample's objective says nothing exact about all rows, so the first iteration is never judged against it.
+                previousObjective = ws.Seeding.IsSampled ? double.NegativeInfinity : seedingObjective;
+            }
+
             (double objective, bool converged) = Refine(ws, options, restart, previousObjective, history, progress, cancellationToken);
             restartObjectives[restart] = objective;
 

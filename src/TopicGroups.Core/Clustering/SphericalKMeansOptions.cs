@@ -30,6 +30,13 @@ public sealed record SphericalKMeansOptions
     /// <value>The default is 1e-5.</value>
     public double ConvergenceTolerance { get; init; } = SphericalKMeansDefaults.ConvergenceTolerance;
 
+    /// <summary>
+    /// Warm start: when set, restart 0 starts from these centres (GroupCount × d, row-major, unit rows, e.g. a
+    /// saved grouping's) instead of k-means++ seeds; later restarts seed as usual and the best objective is kept.
+    /// </summary>
+    /// <value>The default is null: every restart seeds with k-means++.</value>
+    public float[]? InitialCentroids { get; init; }
+
     /// <summary>When set, every run performs exactly MaxIterations iterations (for benchmarks).</summary>
     public bool RunAllIterations { get; init; }
 

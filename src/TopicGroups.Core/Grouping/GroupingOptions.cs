@@ -49,6 +49,13 @@ public sealed record GroupingOptions
     /// <value>The default is -1: all cores. Results do not depend on it.</value>
     public int MaxDegreeOfParallelism { get; init; } = -1;
 
+    /// <summary>
+    /// Warm start: the first restart starts from these unit centres (GroupCount × d, row-major), e.g. a saved
+    /// grouping's (<see cref="GroupingSnapshot.Centroids"/>), instead of k-means++ seeds.
+    /// </summary>
+    /// <value>The default is null: every restart seeds with k-means++.</value>
+    public float[]? InitialCentroids { get; init; }
+
     internal SphericalKMeansOptions ToClusteringOptions() => new()
     {
         GroupCount = GroupCount,
@@ -57,5 +64,6 @@ public sealed record GroupingOptions
         MaxIterations = MaxIterations,
         ConvergenceTolerance = ConvergenceTolerance,
         MaxDegreeOfParallelism = MaxDegreeOfParallelism,
+        InitialCentroids = InitialCentroids,
     };
 }

@@ -27,10 +27,19 @@ internal static class OutlierRule
 
         for (int i = 0; i < similarities.Length; i++)
         {
-            double score = NormalQuartile * (similarities[i] - median) / mad;
-            isOutlier[i] = score < -threshold;
+            isOutlier[i] = IsFarBelow(similarities[i], median, mad, threshold);
         }
     }
+
+    /// <summary>
+    /// The same rule for a document routed into a saved group, against the median and MAD of the group's
+    /// members when it was saved (<see cref="GroupingSnapshot"/>).
+    /// </summary>
+    public static bool IsOutlier(float similarity, int groupSize, double median, double mad, double threshold, int minimumGroupSize) =>
+        groupSize >= minimumGroupSize && groupSize >= 3 && mad > 0 && IsFarBelow(similarity, median, mad, threshold);
+
+    private static bool IsFarBelow(float similarity, double median, double mad, double threshold) =>
+        NormalQuartile * (similarity - median) / mad < -threshold;
 
     /// <summary>Median of the values, and the median absolute deviation from it.</summary>
     internal static double Median(ReadOnlySpan<float> values, out double medianAbsoluteDeviation)
