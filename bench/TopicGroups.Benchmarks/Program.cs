@@ -35,5 +35,20 @@ if (args.Length > 0 && args[0] == "seeding")
     return 0;
 }
 
+if (args.Length > 0 && args[0] == "study")
+{
+    // study FILE.npy k iterations seeds [threads [variant,variant...]]: objective and time of seeding variants on a real file
+    var matrix = NpyMatrix.Load(args[1]);
+    TopicGroups.Core.Vectors.RowNormalisation.NormaliseInPlace(matrix);
+    int threads = args.Length > 5 ? int.Parse(args[5]) : Environment.ProcessorCount;
+    if (args.Length > 6)
+    {
+        QuickMeasurements.StudyVariants = args[6].Split(',');
+    }
+
+    QuickMeasurements.Study(matrix, int.Parse(args[2]), int.Parse(args[3]), ulong.Parse(args[4]), threads);
+    return 0;
+}
+
 BenchmarkSwitcher.FromAssembly(typeof(BlockScoresBenchmarks).Assembly).Run(args);
 return 0;

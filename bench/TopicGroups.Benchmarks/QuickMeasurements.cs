@@ -114,4 +114,48 @@ internal static class QuickMeasurements
 
         return matrix;
     }
+
+    /// <summary>Seeding variants on one matrix: time, seeding objective and final reassigned objective, seeds 1..seeds.</summary>
+    public static void Study(EmbeddingMatrix matrix, int k, int iterations, ulong seeds, int threads)
+    {
+        foreach (string variant in StudyVariants)
+        {
+            var objectives = new List<double>();
+            var times = new List<double>();
+            var seedingTimes = new List<double>();
+            for (ulong seed = 1; seed <= seeds; seed++)
+            {
+                var options = new SphericalKMeansOptions
+                {
+                    GroupCount = k,
+                    RestartCount = 1,
+                    MaxIterations = iterations,
+                    RunAllIterations = true,
+                    Seed = seed,
+                    MaxDegreeOfParallelism = threads,
+                    SeedOnEveryRow = variant.Contains("all"),
+                    SeedCandidates = variant.StartsWith("plain") ? 1 : 0,
+                };
+                options = StudyOptions(options, variant);
+                ClusteringResult result = SphericalKMeans.Fit(matrix, options);
+                objectives.Add(NearestCentroid.Assign(matrix, result.Centroids, maxDegreeOfParallelism: threads));
+                times.Add(result.TotalTime.TotalSeconds);
+                seedingTimes.Add(result.SeedingTime.TotalSeconds);
+            }
+
+            Console.WriteLine(
+                $"{variant,-22} objective median {Median(objectives):F5} (min {objectives.Min():F5}, max {objectives.Max():F5}), " +
+                $"seconds median {Median(times):F3}, seeding {Median(seedingTimes):F3}");
+        }
+    }
+
+    public static string[] StudyVariants { get; set; } = ["plain-sample", "greedy-sample", "plain-all", "greedy-all"];
+
+    public static Func<SphericalKMeansOptions, string, SphericalKMeansOptions> StudyOptions { get; set; } = (o, _) => o;
+
+    private static double Median(List<double> values)
+    {
+        var sorted = values.Order().ToArray();
+        return sorted.Length % 2 == 1 ? sorted[sorted.Length / 2] : (sorted[sorted.Length / 2 - 1] + sorted[sorted.Length / 2]) / 2;
+    }
 }

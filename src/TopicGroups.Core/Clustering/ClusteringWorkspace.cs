@@ -8,7 +8,7 @@ namespace TopicGroups.Core.Clustering;
 /// </summary>
 internal sealed class ClusteringWorkspace
 {
-    public ClusteringWorkspace(EmbeddingMatrix unitRows, int groupCount, int workerCount, bool sampleForSeeding)
+    public ClusteringWorkspace(EmbeddingMatrix unitRows, int groupCount, int workerCount, bool sampleForSeeding, int seedCandidates)
     {
         Rows = unitRows.Values;
         N = unitRows.Rows;
@@ -34,7 +34,7 @@ internal sealed class ClusteringWorkspace
         GroupSizes = new int[K];
         Sums = new double[K * D];
 
-        Seeding = new SeedingPool(Rows, N, D, K, workerCount, sampleForSeeding);
+        Seeding = new SeedingPool(Rows, N, D, K, workerCount, sampleForSeeding, seedCandidates);
     }
 
     public float[] Rows { get; }

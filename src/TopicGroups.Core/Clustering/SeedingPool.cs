@@ -1,3 +1,5 @@
+using TopicGroups.Core.Vectors;
+
 namespace TopicGroups.Core.Clustering;
 
 /// <summary>
@@ -22,8 +24,9 @@ internal sealed class SeedingPool
     private readonly float[] _allRows;
     private readonly int[]? _permutation;
     private readonly int _totalRows;
+    private readonly CentroidPanel?[] _panels;
 
-    public SeedingPool(float[] allRows, int n, int d, int k, int workerCount, bool sample)
+    public SeedingPool(float[] allRows, int n, int d, int k, int workerCount, bool sample, int maxCandidates)
     {
         _allRows = allRows;
         _totalRows = n;
@@ -46,6 +49,13 @@ internal sealed class SeedingPool
         MinDistance = new float[N];
         IsSeed = new bool[N];
         BlockWeight = new double[Blocks.Count];
+
+        MaxCandidates = maxCandidates;
+        CandidateRows = new int[maxCandidates];
+        CandidateValues = new float[maxCandidates * d];
+        CandidateScores = maxCandidates > 1 ? new float[(long)N * maxCandidates > Array.MaxLength ? throw new ArgumentOutOfRangeException(nameof(maxCandidates)) : N * maxCandidates] : [];
+        BlockCandidateWeight = new double[Blocks.Count * maxCandidates];
+        _panels = new CentroidPanel?[maxCandidates + 1];
     }
 
     public static int SampleSize(int n, int k) => (int)Math.Min(n, Math.Max(MinimumSample, (long)SampleRowsPerGroup * k));
@@ -71,6 +81,24 @@ internal sealed class SeedingPool
 
     /// <summary>Per block: Σ MinDistance, reduced in block order.</summary>
     public double[] BlockWeight { get; }
+
+    /// <summary>Most candidates a greedy k-means++ step may draw.</summary>
+    public int MaxCandidates { get; }
+
+    /// <summary>Pool indices of the current step's candidates.</summary>
+    public int[] CandidateRows { get; }
+
+    /// <summary>The candidates' values, MaxCandidates × D.</summary>
+    public float[] CandidateValues { get; }
+
+    /// <summary>N × candidates scores of the current step (row-major, stride = that step's candidate count).</summary>
+    public float[] CandidateScores { get; }
+
+    /// <summary>Per block and candidate (stride MaxCandidates): Σ min(D, 1 − cos) if that candidate were kept.</summary>
+    public double[] BlockCandidateWeight { get; }
+
+    /// <summary>The packed panel for <paramref name="candidates"/> candidates, allocated once per count.</summary>
+    public CentroidPanel CandidatePanel(int candidates) => _panels[candidates] ??= new CentroidPanel(candidates, D);
 
     public ReadOnlySpan<float> Row(int i) => Rows.AsSpan(i * D, D);
 

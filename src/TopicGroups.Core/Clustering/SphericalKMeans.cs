@@ -38,7 +38,8 @@ public static class SphericalKMeans
         int n = unitRows.Rows;
         int d = unitRows.Dimensions;
         int k = options.GroupCount;
-        var ws = new ClusteringWorkspace(unitRows, k, options.ResolveWorkerCount(), !options.SeedOnEveryRow);
+        int seedCandidates = options.ResolveSeedCandidates();
+        var ws = new ClusteringWorkspace(unitRows, k, options.ResolveWorkerCount(), !options.SeedOnEveryRow, seedCandidates);
 
         // The kept run, copied out of the workspace whenever a restart beats it.
         float[] keptCentroids = new float[k * d];
@@ -71,7 +72,7 @@ public static class SphericalKMeans
             {
                 long seedingStart = Stopwatch.GetTimestamp();
                 ws.Seeding.Draw(ref random);
-                double seedingObjective = KMeansPlusPlusSeeding.Seed(ws.Seeding, ws.Centroids, k, ref random, cancellationToken);
+                double seedingObjective = KMeansPlusPlusSeeding.Seed(ws.Seeding, ws.Centroids, k, seedCandidates, ref random, cancellationToken);
                 seedingTicks += Stopwatch.GetTimestamp() - seedingStart;
                 progress?.Invoke(new ClusteringProgress(ClusteringStage.Seeding, restart, 0, seedingObjective));
 

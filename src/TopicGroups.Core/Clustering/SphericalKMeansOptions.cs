@@ -49,6 +49,14 @@ public sealed record SphericalKMeansOptions
     /// </summary>
     internal bool SeedOnEveryRow { get; init; }
 
+    /// <summary>
+    /// Candidates each k-means++ step draws, keeping the best (greedy k-means++); 0 means 2 + ⌊ln k⌋,
+    /// 1 is plain k-means++ (for comparisons and benchmarks).
+    /// </summary>
+    internal int SeedCandidates { get; init; }
+
+    internal int ResolveSeedCandidates() => SeedCandidates > 0 ? SeedCandidates : KMeansPlusPlusSeeding.DefaultCandidates(GroupCount);
+
     internal void Validate(int rows)
     {
         if (GroupCount < 1)
