@@ -1,0 +1,96 @@
+using System.Data.Common;
+using Microsoft.Data.Sqlite;
+
+namespace TopicGroups.Server.Storage;
+
+/// <summary>
+/// Saved groupings in one SQLite file (the default store). Write-ahead logging lets readers work while a save
+/// runs; every save is one IMMEDIATE transaction, so saves queue for the write lock instead of failing, and a
+/// crash mid-save leaves the last committed state (SQLite's atomic commit). synchronous=FULL makes each
+/// committed save survive a power loss too.
+/// </summary>
+internal sealed class SqliteGroupingStore : SqlGroupingStore
+{
+    private static readonly string[] Steps =
+    [
+        """
+        CREATE TABLE topicgroups_groupings (
+          name TEXT NOT NULL PRIMARY KEY,
+          created_at_us INTEGER NOT NULL,
+          group_count INTEGER NOT NULL,
+          document_count INTEGER NOT NULL,
+          dimensions INTEGER NOT NULL,
+          objective REAL NOT NULL,
+          highest_group_id INTEGER NOT NULL,
+          outlier_score_threshold REAL NOT NULL,
+          outlier_minimum_group_size INTEGER NOT NULL,
+          options_json TEXT NOT NULL,
+          centroids BLOB NOT NULL);
+        CREATE INDEX topicgroups_groupings_by_time ON topicgroups_groupings (created_at_us DESC, name);
+        CREATE TABLE topicgroups_groups (
+          grouping_name TEXT NOT NULL,
+          position INTEGER NOT NULL,
+          group_id INTEGER NOT NULL,
+          size INTEGER NOT NULL,
+          cohesion REAL NOT NULL,
+          outlier_count INTEGER NOT NULL,
+          similarity_median REAL NOT NULL,
+          similarity_mad REAL NOT NULL,
+          terms_json TEXT NOT NULL,
+          examples_json TEXT NOT NULL,
+          PRIMARY KEY (grouping_name, position));
+        """,
+    ];
+
+    private readonly string _connectionString;
+
+    public SqliteGroupingStore(string path)
+    {
+        ArgumentException.ThrowIfNullOrWhiteSpace(path);
+        Path = System.IO.Path.GetFullPath(path);
+        _connectionString = new SqliteConnectionStringBuilder
+        {
+            DataSource = Path,
+            Mode = SqliteOpenMode.ReadWriteCreate,
+            Pooling = true,
+            DefaultTimeout = 30,   // seconds a statement waits for the write lock before SQLITE_BUSY is reported
+        }.ToString();
+    }
+
+    /// <summary>The database file.</summary>
+    public string Path { get; }
+
+    protected override IReadOnlyList<string> SchemaSteps => Steps;
+
+    protected override async Task<DbConnection> OpenConnectionAsync(CancellationToken cancellationToken)
+    {
+        string? folder = System.IO.Path.GetDirectoryName(Path);
+        if (!string.IsNullOrEmpty(folder))
+        {
+            Directory.CreateDirectory(folder);
+        }
+
+        var connection = new SqliteConnection(_connectionString);
+        try
+        {
+            await connection.OpenAsync(cancellationToken);
+            await using SqliteCommand pragmas = connection.CreateCommand();
+
+            // journal_mode=WAL is stored in the file; synchronous and busy_timeout hold per connection.
+            pragmas.CommandText = "PRAGMA busy_timeout=30000; PRAGMA journal_mode=WAL; PRAGMA synchronous=FULL;";
+            await pragmas.ExecuteNonQueryAsync(cancellationToken);
+            return connection;
+        }
+        catch
+        {
+            await connection.DisposeAsync();
+            throw;
+        }
+    }
+
+    protected override Task<DbTransaction> BeginWriteAsync(DbConnection connection, bool forMigration, CancellationToken cancellationToken) =>
+        Task.FromResult<DbTransaction>(((SqliteConnection)connection).BeginTransaction(deferred: false));   // BEGIN IMMEDIATE
+
+    protected override Task<DbTransaction> BeginReadAsync(DbConnection connection, CancellationToken cancellationToken) =>
+        Task.FromResult<DbTransaction>(((SqliteConnection)connection).BeginTransaction(deferred: true));    // a WAL snapshot
+}
