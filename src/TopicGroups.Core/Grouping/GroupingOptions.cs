@@ -8,11 +8,28 @@ public static class GroupingDefaults
     public const int ExampleCount = 3;
     public const double OutlierScoreThreshold = 3.5;
     public const int OutlierMinimumGroupSize = 8;
+
+    /// <summary>GroupCount value that asks the pipeline to choose the number of groups.</summary>
+    public const int ChooseGroupCount = 0;
 }
 
 public sealed record GroupingOptions
 {
+    /// <summary>
+    /// Number of groups, or <see cref="GroupingDefaults.ChooseGroupCount"/> (0) to choose it by the mean cosine
+    /// silhouette within MinimumGroupCount..MaximumGroupCount (see <see cref="GroupCountSearch"/>).
+    /// </summary>
     public required int GroupCount { get; init; }
+
+    /// <summary>When choosing: the smallest count to consider; 0 = the default range's (2).</summary>
+    public int MinimumGroupCount { get; init; }
+
+    /// <summary>When choosing: the largest count to consider; 0 = the default range's, min(40, ⌊√(n / 2)⌋).</summary>
+    public int MaximumGroupCount { get; init; }
+
+    /// <summary>Documents whose silhouettes are averaged, for choosing the count and for the quality figures.</summary>
+    /// <value>The default is 5,000; every document when the batch is no larger (then the figure is exact).</value>
+    public int SilhouetteSampleSize { get; init; } = GroupCountSearchDefaults.SilhouetteSampleSize;
 
     /// <value>The default is 0.</value>
     public ulong Seed { get; init; } = SphericalKMeansDefaults.Seed;
@@ -55,6 +72,15 @@ public sealed record GroupingOptions
     /// </summary>
     /// <value>The default is null: every restart seeds with k-means++.</value>
     public float[]? InitialCentroids { get; init; }
+
+    internal GroupCountSearchOptions ToSearchOptions() => new()
+    {
+        MinimumGroupCount = MinimumGroupCount,
+        MaximumGroupCount = MaximumGroupCount,
+        Seed = Seed,
+        SilhouetteSampleSize = SilhouetteSampleSize,
+        MaxDegreeOfParallelism = MaxDegreeOfParallelism,
+    };
 
     internal SphericalKMeansOptions ToClusteringOptions() => new()
     {

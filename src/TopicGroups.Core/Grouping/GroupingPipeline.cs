@@ -21,9 +21,27 @@ public sealed class GroupingPipeline
         EmbeddingMatrix rows = input.Embeddings;
         RowNormalisation.NormaliseInPlace(rows);
 
+        SphericalKMeansOptions clusteringOptions = options.ToClusteringOptions();
+        GroupCountSearchResult? choice = null;
+        if (options.GroupCount == GroupingDefaults.ChooseGroupCount)
+        {
+            choice = GroupCountSearch.Search(
+                rows,
+                options.ToSearchOptions(),
+                progress is null ? null : c => progress(new GroupingProgress(GroupingStage.ChoosingGroupCount, 0, c.GroupCount, c.Silhouette)),
+                cancellationToken);
+
+            // The final run is exactly the one a fixed count would give. A warm start fits only the count it was made for.
+            clusteringOptions = clusteringOptions with
+            {
+                GroupCount = choice.ChosenGroupCount,
+                InitialCentroids = options.InitialCentroids?.Length == choice.ChosenGroupCount * rows.Dimensions ? options.InitialCentroids : null,
+            };
+        }
+
         ClusteringResult clustering = SphericalKMeans.Fit(
             rows,
-            options.ToClusteringOptions(),
+            clusteringOptions,
             progress is null ? null : p => progress(new GroupingProgress(
                 p.Stage == ClusteringStage.Seeding ? GroupingStage.Seeding : GroupingStage.Refining, p.Restart, p.Iteration, p.Objective)),
             cancellationToken);
@@ -57,16 +75,29 @@ public sealed class GroupingPipeline
             new GroupTermsOptions { TermCount = options.TermCount, IncludeBigrams = options.IncludeBigrams },
             cancellationToken);
 
+        double[] cohesionOfCluster = new double[k];
+        for (int cluster = 0; cluster < k; cluster++)
+        {
+            double sum = 0;
+            foreach (int member in membersOfCluster[cluster])
+            {
+                sum += clustering.Similarities[member];
+            }
+
+            cohesionOfCluster[cluster] = sum / membersOfCluster[cluster].Length;
+        }
+
+        (GroupingQuality quality, GroupQuality[] qualityOfCluster) = QualityAssessment.Assess(
+            rows, clustering, membersOfCluster, cohesionOfCluster, idOfCluster, options, cancellationToken);
+
         var groups = new GroupSummary[k];
         for (int rank = 0; rank < k; rank++)
         {
             int cluster = clusterByRank[rank];
             int[] members = membersOfCluster[cluster];
-            double cohesion = 0;
             int outliers = 0;
             foreach (int member in members)
             {
-                cohesion += clustering.Similarities[member];
                 outliers += isOutlier[member] ? 1 : 0;
             }
 
@@ -77,7 +108,10 @@ public sealed class GroupingPipeline
                 .Select(m => new GroupExample(m, input.Ids[m], input.Texts[m], clustering.Similarities[m]))
                 .ToArray();
 
-            groups[rank] = new GroupSummary(rank + 1, members.Length, cohesion / members.Length, terms[cluster], examples, outliers);
+            groups[rank] = new GroupSummary(rank + 1, members.Length, cohesionOfCluster[cluster], terms[cluster], examples, outliers)
+            {
+                Quality = qualityOfCluster[cluster],
+            };
         }
 
         var documents = new DocumentPlacement[n];
@@ -92,7 +126,10 @@ public sealed class GroupingPipeline
                 clustering.Similarities[i],
                 hasRunnerUp ? clustering.Similarities[i] - clustering.RunnerUpSimilarities[i] : 0f,
                 hasRunnerUp ? idOfCluster[runnerUp] : 0,
-                isOutlier[i]);
+                isOutlier[i])
+            {
+                RunnerUpSimilarity = hasRunnerUp ? clustering.RunnerUpSimilarities[i] : 0f,
+            };
         }
 
         float[] centroids = new float[k * rows.Dimensions];
@@ -110,7 +147,11 @@ public sealed class GroupingPipeline
             clustering.RestartCount,
             n,
             rows.Dimensions);
-        return new GroupingResult(groups, documents, statistics, centroids);
+        return new GroupingResult(groups, documents, statistics, centroids)
+        {
+            GroupCountChoice = choice,
+            Quality = quality,
+        };
     }
 
     private static void ValidateOptions(GroupingOptions options)
@@ -123,6 +164,12 @@ public sealed class GroupingPipeline
         if (options.ExampleCount < 0)
         {
             throw new ArgumentException($"ExampleCount is {options.ExampleCount}; it must be zero or more.", nameof(options));
+        }
+
+        if (options.SilhouetteSampleSize < 2)
+        {
+            throw new ArgumentException(
+                $"SilhouetteSampleSize is {options.SilhouetteSampleSize}; it must be at least 2.", nameof(options));
         }
 
         if (!(options.OutlierScoreThreshold > 0))

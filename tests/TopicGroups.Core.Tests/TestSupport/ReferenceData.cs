@@ -15,6 +15,10 @@ internal static class ReferenceData
     private static readonly Lazy<JsonElement> Values = new(() =>
         JsonDocument.Parse(File.ReadAllText(Path.Combine(Folder.Value, "reference_values.json"))).RootElement);
 
+    /// <summary>Any JSON file of the Data folder, e.g. silhouette_reference.json.</summary>
+    public static JsonElement Json(string fileName) =>
+        JsonDocument.Parse(File.ReadAllText(Path.Combine(Folder.Value, fileName))).RootElement;
+
     /// <summary>The whole reference_values.json.</summary>
     public static JsonElement ReferenceValues => Values.Value;
 
