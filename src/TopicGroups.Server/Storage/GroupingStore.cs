@@ -5,31 +5,35 @@ namespace TopicGroups.Server.Storage;
 /// <summary>A grouping kept under a name: what was computed, how, and when.</summary>
 /// <param name="Id">The {grouping} part of the resource name "groupings/{grouping}".</param>
 /// <param name="Options">The options the grouping was made with, defaults filled in.</param>
-internal sealed record SavedGrouping(string Id, DateTimeOffset CreatedAt, GroupingSnapshot Snapshot, GroupingOptions Options);
+public sealed record SavedGrouping(string Id, DateTimeOffset CreatedAt, GroupingSnapshot Snapshot, GroupingOptions Options);
 
 /// <summary>One page of <see cref="IGroupingStore.ListAsync"/>: newest first; Next is null on the last page.</summary>
-internal sealed record GroupingPage(IReadOnlyList<SavedGroupingSummary> Groupings, GroupingPageToken? Next);
+public sealed record GroupingPage(IReadOnlyList<SavedGroupingSummary> Groupings, GroupingPageToken? Next);
 
 /// <summary>A listed grouping without its groups and centres.</summary>
-internal sealed record SavedGroupingSummary(
+public sealed record SavedGroupingSummary(
     string Id, DateTimeOffset CreatedAt, int GroupCount, int DocumentCount, int Dimensions, double Objective, GroupingOptions Options);
 
 /// <summary>Where a page ends in the listing order (created time descending, then id ascending).</summary>
-internal readonly record struct GroupingPageToken(long CreatedAtMicroseconds, string Id);
+public readonly record struct GroupingPageToken(long CreatedAtMicroseconds, string Id);
 
 /// <summary>Saving under a name that is taken, without asking to replace.</summary>
-internal sealed class GroupingExistsException(string id)
+public sealed class GroupingExistsException(string id)
     : Exception($"A grouping named \"{id}\" is already saved.")
 {
     public string Id { get; } = id;
 }
+
+// The storage types are public, unlike the rest of the server: the store contract tests and the crash-test writer
+// (tests/TopicGroups.StoreWriter) use them directly, and InternalsVisibleTo would also expose the server's internal
+// message types beside the client's public ones in the tests (CS0433).
 
 /// <summary>
 /// Saved groupings. Two implementations, run against one contract test suite: SQLite (embedded, the default)
 /// and PostgreSQL (shared by several server replicas). Every save is one transaction: readers see the old
 /// grouping or the new one, never a mix, also after a crash mid-save.
 /// </summary>
-internal interface IGroupingStore
+public interface IGroupingStore
 {
     /// <summary>Saves <paramref name="grouping"/>; with <paramref name="replace"/> an existing one of that id is replaced.</summary>
     /// <exception cref="GroupingExistsException">The id is taken and <paramref name="replace"/> is false.</exception>

@@ -1,7 +1,7 @@
 namespace TopicGroups.Server.Storage;
 
 /// <summary>Where saved groupings live, from configuration section "TopicGroups:Storage".</summary>
-internal sealed class GroupingStoreOptions
+public sealed class GroupingStoreOptions
 {
     public const string SectionName = "TopicGroups:Storage";
 

@@ -8,7 +8,7 @@ namespace TopicGroups.Server.Storage;
 /// Saved groupings in PostgreSQL, so that several server replicas share one store. Saves are single
 /// transactions; replicas that start together migrate the schema one at a time under an advisory lock.
 /// </summary>
-internal sealed class PostgresGroupingStore : SqlGroupingStore, IAsyncDisposable
+public sealed class PostgresGroupingStore : SqlGroupingStore, IAsyncDisposable
 {
     // Any fixed 64-bit number unique to this service: the key of pg_advisory_xact_lock for schema migration.
     private const long MigrationLockKey = 0x546F70696347_01;

@@ -9,7 +9,7 @@ namespace TopicGroups.Server.Storage;
 /// per group). The schema is created and migrated by the service itself: topicgroups_schema_version holds the
 /// version reached, and each pending step runs in one transaction under the store's write lock.
 /// </summary>
-internal abstract class SqlGroupingStore : IGroupingStore
+public abstract class SqlGroupingStore : IGroupingStore
 {
     private readonly SemaphoreSlim _migrationGate = new(1, 1);
     private volatile bool _migrated;

@@ -9,7 +9,7 @@ namespace TopicGroups.Server.Storage;
 /// crash mid-save leaves the last committed state (SQLite's atomic commit). synchronous=FULL makes each
 /// committed save survive a power loss too.
 /// </summary>
-internal sealed class SqliteGroupingStore : SqlGroupingStore
+public sealed class SqliteGroupingStore : SqlGroupingStore
 {
     private static readonly string[] Steps =
     [

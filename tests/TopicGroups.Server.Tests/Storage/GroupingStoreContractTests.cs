@@ -1,0 +1,320 @@
+using System.Diagnostics;
+using TopicGroups.Core.Grouping;
+using TopicGroups.Core.Terms;
+using TopicGroups.Server.Storage;
+using Xunit;
+using Xunit.Abstractions;
+
+namespace TopicGroups.Server.Tests.Storage;
+
+/// <summary>
+/// What every grouping store must do, run once per implementation (SQLite, PostgreSQL): round trips, names,
+/// replace, paging, deletes, concurrent saves, reopening, and a writer process killed mid-save.
+/// </summary>
+public abstract class GroupingStoreContractTests(ITestOutputHelper output) : IDisposable
+{
+    protected ITestOutputHelper Output { get; } = output;
+
+    /// <summary>A store on an empty database of its own; the same database each call within one test.</summary>
+    protected abstract IGroupingStore OpenStore();
+
+    /// <summary>The writer process's arguments for this store: kind and location.</summary>
+    protected abstract (string Kind, string Location) WriterTarget();
+
+    public virtual void Dispose() => GC.SuppressFinalize(this);
+
+    internal static SavedGrouping Sample(string id, int groups = 3, int dimensions = 5, int seed = 1, DateTimeOffset? createdAt = null)
+    {
+        var random = new Random(seed);
+        float[] centroids = Enumerable.Range(0, groups * dimensions).Select(_ => (float)(random.NextDouble() * 2 - 1)).ToArray();
+        var snapshotGroups = Enumerable.Range(0, groups).Select(g => new SnapshotGroup(
+            Id: 2 * g + 1,
+            Size: 10 + g,
+            Cohesion: 0.8 - g * 0.01,
+            OutlierCount: g,
+            Terms: [new WeightedTerm($"cabin{g}", 3.25 + g), new WeightedTerm("late sailing", 1.5)],
+            Examples: [new GroupExample(g, $"ticket-{g}", $"Ferry ticket {g}: the café on deck was closed — “again”", 0.91f)],
+            SimilarityMedian: 0.85 + g * 0.001,
+            SimilarityMad: 0.03)).ToArray();
+        var snapshot = new GroupingSnapshot
+        {
+            Centroids = centroids,
+            Dimensions = dimensions,
+            Groups = snapshotGroups,
+            DocumentCount = 42 + seed,
+            Objective = 0.7712345678901,
+            OutlierScoreThreshold = 3.5,
+            OutlierMinimumGroupSize = 8,
+            HighestGroupId = 2 * groups + 4,
+        };
+        var options = new GroupingOptions
+        {
+            GroupCount = groups, Seed = ulong.MaxValue - 1, RestartCount = 6, MaxIterations = 70, TermCount = 9, ExampleCount = 2, IncludeBigrams = true,
+        };
+        return new SavedGrouping(id, createdAt ?? new DateTimeOffset(2026, 12, 1, 9, 30, 15, TimeSpan.Zero).AddTicks(1234560), snapshot, options);
+    }
+
+    private static void AssertSame(SavedGrouping expected, SavedGrouping? actual)
+    {
+        Assert.NotNull(actual);
+        Assert.Equal(expected.Id, actual.Id);
+        Assert.Equal(expected.CreatedAt, actual.CreatedAt);
+        Assert.Equal(expected.Options, actual.Options);
+        GroupingSnapshot e = expected.Snapshot, a = actual.Snapshot;
+        Assert.Equal(e.Centroids, a.Centroids);   // bit for bit
+        Assert.Equal((e.Dimensions, e.DocumentCount, e.Objective, e.OutlierScoreThreshold, e.OutlierMinimumGroupSize, e.HighestGroupId),
+            (a.Dimensions, a.DocumentCount, a.Objective, a.OutlierScoreThreshold, a.OutlierMinimumGroupSize, a.HighestGroupId));
+        Assert.Equal(e.Groups.Count, a.Groups.Count);
+        for (int g = 0; g < e.Groups.Count; g++)
+        {
+            SnapshotGroup x = e.Groups[g], y = a.Groups[g];
+            Assert.Equal((x.Id, x.Size, x.Cohesion, x.OutlierCount, x.SimilarityMedian, x.SimilarityMad), (y.Id, y.Size, y.Cohesion, y.OutlierCount, y.SimilarityMedian, y.SimilarityMad));
+            Assert.Equal(x.Terms, y.Terms);
+            Assert.Equal(x.Examples, y.Examples);
+        }
+    }
+
+    [SkippableFact]
+    public async Task SaveThenGet_EveryPartRoundTrips()
+    {
+        IGroupingStore store = OpenStore();
+        SavedGrouping saved = Sample("week-48");
+
+        await store.SaveAsync(saved, replace: false, CancellationToken.None);
+
+        AssertSame(saved, await store.GetAsync("week-48", CancellationToken.None));
+        Assert.True(await store.ExistsAsync("week-48", CancellationToken.None));
+    }
+
+    [SkippableFact]
+    public async Task Get_UnknownName_Null()
+    {
+        IGroupingStore store = OpenStore();
+
+        Assert.Null(await store.GetAsync("never-saved", CancellationToken.None));
+        Assert.False(await store.ExistsAsync("never-saved", CancellationToken.None));
+    }
+
+    [SkippableFact]
+    public async Task Save_NameTakenWithoutReplace_ThrowsAndKeepsTheFirst()
+    {
+        IGroupingStore store = OpenStore();
+        SavedGrouping first = Sample("tickets", seed: 1);
+        await store.SaveAsync(first, replace: false, CancellationToken.None);
+
+        var exception = await Assert.ThrowsAsync<GroupingExistsException>(() => store.SaveAsync(Sample("tickets", seed: 2), replace: false, CancellationToken.None));
+
+        Assert.Equal("tickets", exception.Id);
+        AssertSame(first, await store.GetAsync("tickets", CancellationToken.None));
+    }
+
+    [SkippableFact]
+    public async Task Save_NameTakenWithReplace_TheNewGroupingWholeAndNothingOfTheOld()
+    {
+        IGroupingStore store = OpenStore();
+        await store.SaveAsync(Sample("tickets", groups: 6, seed: 1), replace: false, CancellationToken.None);
+        SavedGrouping second = Sample("tickets", groups: 2, dimensions: 7, seed: 2);
+
+        await store.SaveAsync(second, replace: true, CancellationToken.None);
+
+        AssertSame(second, await store.GetAsync("tickets", CancellationToken.None));
+    }
+
+    [SkippableFact]
+    public async Task Delete_ExistingThenUnknown_TrueThenFalse()
+    {
+        IGroupingStore store = OpenStore();
+        await store.SaveAsync(Sample("gone-soon"), replace: false, CancellationToken.None);
+        await store.SaveAsync(Sample("stays"), replace: false, CancellationToken.None);
+
+        Assert.True(await store.DeleteAsync("gone-soon", CancellationToken.None));
+        Assert.False(await store.DeleteAsync("gone-soon", CancellationToken.None));
+
+        Assert.Null(await store.GetAsync("gone-soon", CancellationToken.None));
+        Assert.NotNull(await store.GetAsync("stays", CancellationToken.None));
+        await store.SaveAsync(Sample("gone-soon", seed: 5), replace: false, CancellationToken.None);   // the name is free again
+    }
+
+    [SkippableFact]
+    public async Task List_InPagesOfThree_NewestFirstEveryGroupingOnce()
+    {
+        IGroupingStore store = OpenStore();
+        var start = new DateTimeOffset(2026, 11, 2, 8, 0, 0, TimeSpan.Zero);
+        // Seven groupings; two share a creation time, so the order falls back to the name.
+        string[] names = ["a-1", "a-2", "a-3", "a-4", "a-5", "a-6", "a-7"];
+        for (int i = 0; i < names.Length; i++)
+        {
+            await store.SaveAsync(Sample(names[i], createdAt: start.AddMinutes(i == 6 ? 5 : i)), replace: false, CancellationToken.None);
+        }
+
+        var listed = new List<string>();
+        GroupingPageToken? token = null;
+        int pages = 0;
+        do
+        {
+            GroupingPage page = await store.ListAsync(3, token, CancellationToken.None);
+            Assert.InRange(page.Groupings.Count, 1, 3);
+            listed.AddRange(page.Groupings.Select(g => g.Id));
+            token = page.Next;
+            pages++;
+        }
+        while (token is not null);
+
+        Assert.Equal(["a-6", "a-7", "a-5", "a-4", "a-3", "a-2", "a-1"], listed);
+        Assert.Equal(3, pages);
+        SavedGroupingSummary first = (await store.ListAsync(1, null, CancellationToken.None)).Groupings[0];
+        Assert.Equal((3, 43, 5), (first.GroupCount, first.DocumentCount, first.Dimensions));
+    }
+
+    [SkippableFact]
+    public async Task List_Empty_NoGroupingsNoNextPage()
+    {
+        GroupingPage page = await OpenStore().ListAsync(50, null, CancellationToken.None);
+
+        Assert.Empty(page.Groupings);
+        Assert.Null(page.Next);
+    }
+
+    [SkippableFact]
+    public async Task ConcurrentSaves_DistinctNames_EveryGroupingStoredWhole()
+    {
+        IGroupingStore store = OpenStore();
+        SavedGrouping[] groupings = Enumerable.Range(0, 24).Select(i => Sample($"parallel-{i}", groups: 20, dimensions: 64, seed: i)).ToArray();
+
+        await Parallel.ForEachAsync(groupings, new ParallelOptions { MaxDegreeOfParallelism = 8 },
+            async (grouping, token) => await store.SaveAsync(grouping, replace: false, token));
+
+        foreach (SavedGrouping grouping in groupings)
+        {
+            AssertSame(grouping, await store.GetAsync(grouping.Id, CancellationToken.None));
+        }
+    }
+
+    [SkippableFact]
+    public async Task ConcurrentSaves_OneNameWithoutReplace_ExactlyOneWins()
+    {
+        IGroupingStore store = OpenStore();
+        SavedGrouping[] attempts = Enumerable.Range(0, 12).Select(i => Sample("contested", groups: 10, seed: i)).ToArray();
+        int lost = 0;
+
+        await Parallel.ForEachAsync(attempts, new ParallelOptions { MaxDegreeOfParallelism = 6 }, async (grouping, token) =>
+        {
+            try
+            {
+                await store.SaveAsync(grouping, replace: false, token);
+            }
+            catch (GroupingExistsException)
+            {
+                Interlocked.Increment(ref lost);
+            }
+        });
+
+        Assert.Equal(attempts.Length - 1, lost);
+        SavedGrouping? stored = await store.GetAsync("contested", CancellationToken.None);
+        AssertSame(attempts.Single(a => a.Snapshot.DocumentCount == stored!.Snapshot.DocumentCount), stored);
+    }
+
+    [SkippableFact]
+    public async Task ConcurrentSaves_OneNameWithReplace_OneWholeVersionRemains()
+    {
+        IGroupingStore store = OpenStore();
+        // Different group counts per version: a mix of two saves would show as a wrong count or foreign groups.
+        SavedGrouping[] versions = Enumerable.Range(0, 12).Select(i => Sample("replaced", groups: 3 + i, seed: i)).ToArray();
+
+        await Parallel.ForEachAsync(versions, new ParallelOptions { MaxDegreeOfParallelism = 6 },
+            async (grouping, token) => await store.SaveAsync(grouping, replace: true, token));
+
+        SavedGrouping? stored = await store.GetAsync("replaced", CancellationToken.None);
+        AssertSame(versions.Single(v => v.Snapshot.Groups.Count == stored!.Snapshot.Groups.Count), stored);
+    }
+
+    [SkippableFact]
+    public async Task Reopen_NewStoreOnTheSameDatabase_SeesSavedGroupingsAndKeepsTheSchema()
+    {
+        SavedGrouping saved = Sample("survives");
+        await OpenStore().SaveAsync(saved, replace: false, CancellationToken.None);
+
+        IGroupingStore reopened = OpenStore();
+
+        AssertSame(saved, await reopened.GetAsync("survives", CancellationToken.None));
+        await reopened.SaveAsync(Sample("after-reopen"), replace: false, CancellationToken.None);
+    }
+
+    [SkippableFact]
+    public async Task WriterKilledMidSave_PreviousVersionStillReadableAndWhole()
+    {
+        // A child process saves versions 1, 2, 3, ... of one grouping (300 groups × 384 dimensions each, one
+        // transaction per version) and is killed at a random moment, three times over. Each time the store must
+        // open and hold one whole version: at least the last one the writer reported committed.
+        IGroupingStore store = OpenStore();   // creates the database and schema
+        (string kind, string location) = WriterTarget();
+        string writer = Path.Combine(AppContext.BaseDirectory, "TopicGroups.StoreWriter.dll");
+        var random = new Random(20261202);
+        for (int round = 0; round < 3; round++)
+        {
+            int reported = await RunWriterUntilKilledAsync(writer, kind, location, minimumVersions: 3, killAfter: TimeSpan.FromMilliseconds(random.Next(5, 80)));
+
+            SavedGrouping? stored = await OpenStore().GetAsync("crash-test", CancellationToken.None);
+            Assert.NotNull(stored);
+            int version = StoreWriterVersions.VersionOf(stored);   // throws if the parts come from different saves
+            Output.WriteLine($"round {round}: writer reported version {reported} committed; the store holds version {version}");
+            Assert.InRange(version, reported, reported + 1);   // +1: committed, killed before it could print
+        }
+
+        GC.KeepAlive(store);
+    }
+
+    private async Task<int> RunWriterUntilKilledAsync(string writer, string kind, string location, int minimumVersions, TimeSpan killAfter)
+    {
+        var start = new ProcessStartInfo("dotnet")
+        {
+            RedirectStandardOutput = true,
+            RedirectStandardError = true,
+            UseShellExecute = false,
+        };
+        foreach (string argument in new[] { writer, kind, location, "crash-test" })
+        {
+            start.ArgumentList.Add(argument);
+        }
+
+        using Process process = Process.Start(start) ?? throw new InvalidOperationException("could not start dotnet");
+        int reported = 0;
+        var errors = new System.Text.StringBuilder();
+        process.ErrorDataReceived += (_, e) => { lock (errors) { errors.AppendLine(e.Data); } };
+        process.BeginErrorReadLine();
+        using var timeout = new CancellationTokenSource(TimeSpan.FromSeconds(120));
+        try
+        {
+            while (reported < minimumVersions)
+            {
+                string? line = await process.StandardOutput.ReadLineAsync(timeout.Token);
+                if (line is null)
+                {
+                    lock (errors)
+                    {
+                        throw new InvalidOperationException($"The writer exited after version {reported}: {errors}");
+                    }
+                }
+
+                reported = int.Parse(line.AsSpan("saved ".Length), System.Globalization.CultureInfo.InvariantCulture);
+            }
+
+            // Let it get into the next save(s), then kill it where it stands (SIGKILL: no clean-up runs).
+            await Task.Delay(killAfter);
+        }
+        finally
+        {
+            process.Kill(entireProcessTree: true);
+            await process.WaitForExitAsync(CancellationToken.None);
+        }
+
+        // Lines printed before the kill are still in the pipe.
+        string rest = await process.StandardOutput.ReadToEndAsync(CancellationToken.None);
+        foreach (string line in rest.Split('\n', StringSplitOptions.RemoveEmptyEntries))
+        {
+            reported = int.Parse(line.AsSpan("saved ".Length), System.Globalization.CultureInfo.InvariantCulture);
+        }
+
+        return reported;
+    }
+}
