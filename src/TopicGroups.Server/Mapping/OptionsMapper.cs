@@ -18,6 +18,11 @@ internal static class OptionsMapper
             TermCount = options.TermCount == 0 ? defaults.TermCount : options.TermCount,
             ExampleCount = options.ExampleCount == 0 ? defaults.ExampleCount : options.ExampleCount,
             IncludeBigrams = options.IncludeBigrams,
+            MinimumGroupCount = options.GroupCountRange?.Minimum ?? 0,
+            MaximumGroupCount = options.GroupCountRange?.Maximum ?? 0,
+            SilhouetteSampleSize = options.SilhouetteSampleSize == 0 ? defaults.SilhouetteSampleSize : options.SilhouetteSampleSize,
+            OutlierScoreThreshold = options.OutlierThreshold == 0 ? defaults.OutlierScoreThreshold : options.OutlierThreshold,
+            OutlierMinimumGroupSize = options.OutlierMinimumGroupSize == 0 ? defaults.OutlierMinimumGroupSize : options.OutlierMinimumGroupSize,
         };
     }
 }

@@ -1,3 +1,4 @@
+using TopicGroups.Core.Clustering;
 using TopicGroups.Core.Grouping;
 using Proto = TopicGroups.Protos.V1;
 
@@ -26,7 +27,27 @@ internal static class ResponseMapper
                 Margin = placement.Margin,
                 RunnerUpGroupId = placement.RunnerUpGroupId,
                 IsOutlier = placement.IsOutlier,
+                RunnerUpSimilarity = placement.RunnerUpSimilarity,
             });
+        }
+
+        if (result.GroupCountChoice is { } choice)
+        {
+            response.GroupCountChoice = ToProto(choice);
+        }
+
+        if (result.Quality is { } quality)
+        {
+            response.Quality = new Proto.GroupingQuality
+            {
+                SampleSize = quality.SampleSize,
+                NoStructure = quality.NoStructure,
+                NoStructureThreshold = quality.NoStructureThreshold,
+            };
+            if (double.IsFinite(quality.Silhouette))
+            {
+                response.Quality.Silhouette = quality.Silhouette;
+            }
         }
 
         return response;
@@ -39,6 +60,7 @@ internal static class ResponseMapper
             GroupingStage.Seeding => Proto.GroupingStage.Seeding,
             GroupingStage.Refining => Proto.GroupingStage.Refining,
             GroupingStage.Describing => Proto.GroupingStage.Describing,
+            GroupingStage.ChoosingGroupCount => Proto.GroupingStage.ChoosingGroupCount,
             _ => Proto.GroupingStage.Unspecified,
         },
         Restart = progress.Restart,
@@ -55,6 +77,22 @@ internal static class ResponseMapper
             Cohesion = group.Cohesion,
             OutlierCount = group.OutlierCount,
         };
+        if (group.Quality is { } quality)
+        {
+            proto.NearestGroupId = quality.NearestGroupId;
+            proto.NearestGroupSimilarity = double.IsFinite(quality.NearestCentreSimilarity) ? quality.NearestCentreSimilarity : 0;
+            proto.SilhouetteSampleCount = quality.SampledMembers;
+            if (double.IsFinite(quality.Silhouette))
+            {
+                proto.Silhouette = quality.Silhouette;
+            }
+
+            foreach (GroupSuggestion suggestion in quality.Suggestions)
+            {
+                proto.Suggestions.Add(ToProto(suggestion));
+            }
+        }
+
         foreach (var term in group.Terms)
         {
             proto.Terms.Add(new Proto.WeightedTerm { Term = term.Term, Weight = term.Weight });
@@ -67,6 +105,67 @@ internal static class ResponseMapper
                 DocumentId = example.DocumentId,
                 Text = example.Text,
                 Similarity = example.Similarity,
+            });
+        }
+
+        return proto;
+    }
+
+    private static Proto.GroupSuggestion ToProto(GroupSuggestion suggestion)
+    {
+        var proto = new Proto.GroupSuggestion
+        {
+            Kind = suggestion.Kind switch
+            {
+                SuggestionKind.ProbablyTwoThemes => Proto.SuggestionKind.ProbablyTwoThemes,
+                SuggestionKind.CloseToGroup => Proto.SuggestionKind.CloseToGroup,
+                _ => Proto.SuggestionKind.Unspecified,
+            },
+            Message = suggestion.Message,
+            Cohesion = suggestion.Cohesion,
+            SplitCohesion = suggestion.SplitCohesion,
+            SpreadRemoved = suggestion.SpreadRemoved,
+            SplitSilhouette = suggestion.SplitSilhouette,
+            OtherGroupId = suggestion.OtherGroupId,
+            CentreSimilarity = suggestion.CentreSimilarity,
+            PairSilhouette = suggestion.PairSilhouette,
+        };
+        proto.PartSizes.Add(suggestion.PartSizes);
+        return proto;
+    }
+
+    private static Proto.GroupCountChoice ToProto(GroupCountSearchResult choice)
+    {
+        var proto = new Proto.GroupCountChoice
+        {
+            Minimum = choice.MinimumGroupCount,
+            Maximum = choice.MaximumGroupCount,
+            ChosenGroupCount = choice.ChosenGroupCount,
+            BestGroupCount = choice.BestGroupCount,
+            BestSilhouette = choice.BestSilhouette,
+            Reason = choice.Reason switch
+            {
+                GroupCountChoiceReason.HighestSilhouette => Proto.GroupCountChoiceReason.HighestSilhouette,
+                GroupCountChoiceReason.NearTieFewerGroups => Proto.GroupCountChoiceReason.NearTieFewerGroups,
+                GroupCountChoiceReason.NoStructure => Proto.GroupCountChoiceReason.NoStructure,
+                _ => Proto.GroupCountChoiceReason.Unspecified,
+            },
+            Explanation = choice.Explanation,
+            NoStructure = choice.NoStructure,
+            NoStructureThreshold = choice.NoStructureThreshold,
+            TieTolerance = choice.TieTolerance,
+            CandidateDocumentCount = choice.CandidateRows,
+            SilhouetteSampleSize = choice.SampleSize,
+            Seconds = choice.Elapsed.TotalSeconds,
+        };
+        foreach (GroupCountCandidate candidate in choice.Curve)
+        {
+            proto.Candidates.Add(new Proto.GroupCountCandidate
+            {
+                GroupCount = candidate.GroupCount,
+                Silhouette = candidate.Silhouette,
+                Objective = candidate.Objective,
+                Seconds = candidate.Elapsed.TotalSeconds,
             });
         }
 

@@ -257,11 +257,23 @@ internal sealed class RequestValidator
 
         int groups = _options.GroupCount;
         const string groupField = "options.group_count";
-        if (groups < 1)
+        if (groups < 0)
         {
             AddViolation(
                 groupField,
-                $"is {groups}; set it to the number of groups wanted, from 1 to {Math.Max(documentCount, 1)} (the number of documents).");
+                $"is {groups}; set it to the number of groups wanted, from 1 to {Math.Max(documentCount, 1)} (the number of documents), "
+                + "or to 0 to let the server choose.");
+        }
+        else if (groups == 0)
+        {
+            CheckGroupCountRange(_options.GroupCountRange, documentCount);
+        }
+        else if (_options.GroupCountRange is not null)
+        {
+            AddViolation(
+                "options.group_count_range",
+                $"is set but group_count is {groups}; leave group_count 0 to let the server choose within the range, "
+                + $"or unset the range to get exactly {groups} groups.");
         }
         else if (groups > _limits.MaxGroupCount)
         {
@@ -280,6 +292,89 @@ internal sealed class RequestValidator
         CheckCount("options.max_iterations", _options.MaxIterations, SphericalKMeansDefaults.MaxIterations, _limits.MaxIterations, nameof(TopicGroupsLimits.MaxIterations));
         CheckCount("options.term_count", _options.TermCount, GroupTermsDefaults.TermCount, _limits.MaxTermCount, nameof(TopicGroupsLimits.MaxTermCount));
         CheckCount("options.example_count", _options.ExampleCount, GroupingDefaults.ExampleCount, _limits.MaxExampleCount, nameof(TopicGroupsLimits.MaxExampleCount));
+        CheckCount("options.silhouette_sample_size", _options.SilhouetteSampleSize, GroupCountSearchDefaults.SilhouetteSampleSize, _limits.MaxSilhouetteSampleSize, nameof(TopicGroupsLimits.MaxSilhouetteSampleSize));
+        if (_options.SilhouetteSampleSize == 1)
+        {
+            AddViolation(
+                "options.silhouette_sample_size",
+                $"is 1; a silhouette sample needs at least 2 documents. Use 0 for the server default ({GroupCountSearchDefaults.SilhouetteSampleSize}).");
+        }
+
+        CheckCount("options.outlier_minimum_group_size", _options.OutlierMinimumGroupSize, GroupingDefaults.OutlierMinimumGroupSize, _limits.MaxDocuments, nameof(TopicGroupsLimits.MaxDocuments));
+        double threshold = _options.OutlierThreshold;
+        if (!double.IsFinite(threshold) || threshold < 0)
+        {
+            AddViolation(
+                "options.outlier_threshold",
+                $"is {threshold.ToString(System.Globalization.CultureInfo.InvariantCulture)}; use 0 for the server default "
+                + $"({GroupingDefaults.OutlierScoreThreshold.ToString(System.Globalization.CultureInfo.InvariantCulture)}) or a positive number "
+                + "(a modified z-score: higher flags fewer documents).");
+        }
+    }
+
+    /// <summary>group_count 0: the server chooses, within the range when one is given (0 at an end = the default end).</summary>
+    private void CheckGroupCountRange(Proto.GroupCountRange? range, int documentCount)
+    {
+        if (documentCount is > 0 and < 3)
+        {
+            AddViolation(
+                "options.group_count",
+                $"is 0, which asks the server to choose the number of groups; that needs at least 3 documents and the batch has "
+                + $"{documentCount}. Set group_count from 1 to {documentCount}.");
+            return;
+        }
+
+        if (range is null)
+        {
+            return;
+        }
+
+        const string minimumField = "options.group_count_range.minimum";
+        const string maximumField = "options.group_count_range.maximum";
+        int minimum = range.Minimum;
+        int maximum = range.Maximum;
+        int largest = documentCount - 1;
+        string defaultMaximum = documentCount >= 3
+            ? $" ({GroupCountSearchOptions.DefaultRange(documentCount).Maximum} for this batch)"
+            : string.Empty;
+        if (minimum is < 0 or 1)
+        {
+            AddViolation(
+                minimumField,
+                $"is {minimum}; use 0 for the default ({GroupCountSearchDefaults.DefaultMinimum}) or a count of at least 2: "
+                + "a silhouette compares each group with its nearest neighbour.");
+        }
+        else if (documentCount > 0 && minimum > largest)
+        {
+            AddViolation(
+                minimumField,
+                $"is {minimum} but the batch has only {documentCount} documents; the silhouette needs at most {largest} groups "
+                + "(one group must hold two documents).");
+        }
+
+        if (maximum is < 0 or 1)
+        {
+            AddViolation(
+                maximumField,
+                $"is {maximum}; use 0 for the default, min(40, ⌊√(documents / 2)⌋){defaultMaximum}, or a count of at least 2.");
+        }
+        else if (maximum > _limits.MaxGroupCount)
+        {
+            AddViolation(
+                maximumField,
+                $"is {maximum}; this server forms at most {_limits.MaxGroupCount} groups per batch (TopicGroups:Limits:MaxGroupCount).");
+        }
+        else if (documentCount > 0 && maximum > largest)
+        {
+            AddViolation(
+                maximumField,
+                $"is {maximum} but the batch has only {documentCount} documents; the silhouette needs at most {largest} groups "
+                + "(one group must hold two documents).");
+        }
+        else if (maximum >= 2 && minimum >= 2 && maximum < minimum)
+        {
+            AddViolation(maximumField, $"is {maximum}, below minimum {minimum}; give a range with minimum ≤ maximum.");
+        }
     }
 
     private void CheckCount(string field, int value, int serverDefault, int max, string limitName)

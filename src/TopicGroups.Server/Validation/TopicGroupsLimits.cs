@@ -15,6 +15,9 @@ internal static class TopicGroupsLimitsDefaults
     public const int MaxTermCount = 100;
     public const int MaxExampleCount = 100;
 
+    // Silhouette cost is O(n d + sample × groups × d); 50,000 × 1,000 × 768 is already ~4e10 multiply-adds.
+    public const int MaxSilhouetteSampleSize = 50_000;
+
     // One gRPC message (a whole unary batch, or one stream chunk). Larger batches stream in chunks.
     public const int MaxMessageBytes = 16 * 1024 * 1024;
 
@@ -55,6 +58,9 @@ internal sealed class TopicGroupsLimits
     /// <value>The default is 100 examples per group.</value>
     public int MaxExampleCount { get; set; } = TopicGroupsLimitsDefaults.MaxExampleCount;
 
+    /// <value>The default is 50,000 documents in the silhouette sample.</value>
+    public int MaxSilhouetteSampleSize { get; set; } = TopicGroupsLimitsDefaults.MaxSilhouetteSampleSize;
+
     /// <summary>Largest single gRPC message the server reads (gRPC's MaxReceiveMessageSize).</summary>
     /// <value>The default is 16 MiB.</value>
     public int MaxMessageBytes { get; set; } = TopicGroupsLimitsDefaults.MaxMessageBytes;
@@ -71,6 +77,7 @@ internal sealed class TopicGroupsLimits
         Check(MaxIterations, nameof(MaxIterations));
         Check(MaxTermCount, nameof(MaxTermCount));
         Check(MaxExampleCount, nameof(MaxExampleCount));
+        Check(MaxSilhouetteSampleSize, nameof(MaxSilhouetteSampleSize));
         Check(MaxMessageBytes, nameof(MaxMessageBytes));
         if (MaxEmbeddingValues > Array.MaxLength)
         {

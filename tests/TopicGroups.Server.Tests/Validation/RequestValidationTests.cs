@@ -149,9 +149,9 @@ public sealed class RequestValidationTests(TestHost host) : IClassFixture<TestHo
     }
 
     [Theory]
-    [InlineData(0)]
+    [InlineData(-1)]
     [InlineData(-3)]
-    public async Task GroupDocuments_GroupCountBelowOne_FieldViolationStatesRange(int groupCount)
+    public async Task GroupDocuments_GroupCountNegative_FieldViolationStatesRange(int groupCount)
     {
         RpcException error = await GroupFailsAsync(TestBatches.Valid(7), Groups(groupCount));
 
