@@ -15,12 +15,7 @@ internal static class DemoCommand
 
     public static Command Create(GroupingCall grouping)
     {
-        var groups = new Option<int>("--groups", "-k")
-        {
-            Description = "Number of groups to form.",
-            DefaultValueFactory = _ => DefaultGroupCount,
-        };
-        GroupCommand.AddPositiveValidator(groups);
+        Option<GroupCountSpec> groups = GroupCountOption.Create(GroupCountSpec.Fixed(DefaultGroupCount));
         var options = new GroupingOptionSet();
         var command = new Command("demo", "Group the bundled demo tickets and print the report.") { groups };
         options.AddTo(command);

@@ -33,7 +33,7 @@ internal static class GroupCommand
         {
             Description = "A .npy matrix (float32 or float64, shape (documents, dimensions)); row i is the i-th document's embedding. Any \"embedding\" in the JSONL is then ignored.",
         };
-        var groups = new Option<int>("--groups", "-k") { Description = "Number of groups to form.", Required = true };
+        Option<GroupCountSpec> groups = GroupCountOption.Create();
         var options = new GroupingOptionSet();
 
         var command = new Command("group", "Group documents by their embeddings and describe each group.")
@@ -41,7 +41,6 @@ internal static class GroupCommand
             input, embeddings, groups,
         };
         options.AddTo(command);
-        AddPositiveValidator(groups);
 
         command.SetAction((parseResult, cancellationToken) =>
         {
@@ -63,11 +62,7 @@ internal static class GroupCommand
         try
         {
             List<Document> documents = ReadDocuments(run);
-            if (run.Options.GroupCount > documents.Count)
-            {
-                throw new InputException(
-                    $"--groups {run.Options.GroupCount} is more than the {documents.Count} documents in {Path.GetFileName(run.InputPath)}; ask for at most {documents.Count}");
-            }
+            GroupCountOption.CheckAgainst(run.Options, documents.Count, Path.GetFileName(run.InputPath));
 
             using ProgressLine? progress = ProgressLine.ForTerminal(error, documents.Count);
             response = await grouping(run.Server, documents, run.Options, progress, cancellationToken);

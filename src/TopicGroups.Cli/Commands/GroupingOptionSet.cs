@@ -18,6 +18,16 @@ internal sealed class GroupingOptionSet
 
     public Option<bool> Bigrams { get; } = new("--bigrams") { Description = "Also weigh two-word phrases as terms." };
 
+    public Option<double?> OutlierThreshold { get; } = new("--outlier-threshold")
+    {
+        Description = "Flag a document as an outlier when its modified z-score of similarity within its group is below minus this "
+            + "(higher flags fewer; docs/algorithms.md). Default: the server's (3.5).",
+    };
+
+    public Option<int> OutlierMinimumGroupSize { get; } = new("--outlier-min-group") { Description = "Groups smaller than this flag no outliers. Default: the server's (8)." };
+
+    public Option<int> SilhouetteSample { get; } = new("--silhouette-sample") { Description = "Documents whose silhouettes are averaged for choosing the count and for quality. Default: the server's (5,000)." };
+
     public Option<string?> Output { get; } = new("--output", "-o") { Description = "Write the full result as JSON to this file." };
 
     public Option<string?> Csv { get; } = new("--csv") { Description = "Write one row per document (id,group,similarity,margin,outlier) to this CSV file." };
@@ -32,6 +42,9 @@ internal sealed class GroupingOptionSet
         command.Add(Terms);
         command.Add(Examples);
         command.Add(Bigrams);
+        command.Add(OutlierThreshold);
+        command.Add(OutlierMinimumGroupSize);
+        command.Add(SilhouetteSample);
         command.Add(Output);
         command.Add(Csv);
         command.Add(ServerAddress);
@@ -39,6 +52,15 @@ internal sealed class GroupingOptionSet
         GroupCommand.AddPositiveValidator(MaxIterations);
         GroupCommand.AddPositiveValidator(Terms);
         GroupCommand.AddPositiveValidator(Examples);
+        GroupCommand.AddPositiveValidator(OutlierMinimumGroupSize);
+        GroupCommand.AddPositiveValidator(SilhouetteSample);
+        OutlierThreshold.Validators.Add(result =>
+        {
+            if (result.GetValueOrDefault<double?>() is double value && !(value > 0 && double.IsFinite(value)))
+            {
+                result.AddError($"--outlier-threshold must be a positive number (got {value.ToString(System.Globalization.CultureInfo.InvariantCulture)}); the default is 3.5");
+            }
+        });
         ServerAddress.Validators.Add(result =>
         {
             string? text = result.GetValueOrDefault<string?>();
@@ -50,17 +72,23 @@ internal sealed class GroupingOptionSet
     }
 
     /// <summary>The request options; 0 leaves a setting to the server's default.</summary>
-    public GroupingOptions ToProto(ParseResult parseResult, int groupCount)
+    public GroupingOptions ToProto(ParseResult parseResult, int groupCount) => ToProto(parseResult, GroupCountSpec.Fixed(groupCount));
+
+    /// <summary>The request options for a count, "auto" or a range; 0 leaves a setting to the server's default.</summary>
+    public GroupingOptions ToProto(ParseResult parseResult, GroupCountSpec groups)
     {
         var options = new GroupingOptions
         {
-            GroupCount = groupCount,
+            OutlierThreshold = parseResult.GetValue(OutlierThreshold) ?? 0,
+            OutlierMinimumGroupSize = parseResult.GetValue(OutlierMinimumGroupSize),
+            SilhouetteSampleSize = parseResult.GetValue(SilhouetteSample),
             RestartCount = parseResult.GetValue(Restarts),
             MaxIterations = parseResult.GetValue(MaxIterations),
             TermCount = parseResult.GetValue(Terms),
             ExampleCount = parseResult.GetValue(Examples),
             IncludeBigrams = parseResult.GetValue(Bigrams),
         };
+        groups.ApplyTo(options);
         if (parseResult.GetValue(Seed) is ulong seed)
         {
             options.Seed = seed;

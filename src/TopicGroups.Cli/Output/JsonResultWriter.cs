@@ -31,6 +31,8 @@ internal static class JsonResultWriter
         json.WriteStartObject();
         WriteOptions(json, options);
         WriteStatistics(json, response.Statistics ?? new RunStatistics());
+        QualityJson.WriteChoice(json, response.GroupCountChoice);
+        QualityJson.WriteOverall(json, response.Quality);
 
         json.WriteStartArray("groups");
         foreach (Group group in response.Groups)
@@ -40,6 +42,7 @@ internal static class JsonResultWriter
             json.WriteNumber("size", group.Size);
             json.WriteNumber("cohesion", group.Cohesion);
             json.WriteNumber("outlier_count", group.OutlierCount);
+            QualityJson.WriteGroup(json, group);
             json.WriteStartArray("terms");
             foreach (WeightedTerm term in group.Terms)
             {
@@ -84,6 +87,8 @@ internal static class JsonResultWriter
                 json.WriteNull("runner_up_group");
             }
 
+            json.WriteNumber("runner_up_similarity", placement.RunnerUpSimilarity);
+
             json.WriteBoolean("outlier", placement.IsOutlier);
             json.WriteEndObject();
         }
@@ -96,7 +101,28 @@ internal static class JsonResultWriter
     private static void WriteOptions(Utf8JsonWriter json, GroupingOptions options)
     {
         json.WriteStartObject("options");
-        json.WriteNumber("group_count", options.GroupCount);
+        // 0 asks the service to choose: null here, and the range (or null for the default range) beside it.
+        if (options.GroupCount > 0)
+        {
+            json.WriteNumber("group_count", options.GroupCount);
+        }
+        else
+        {
+            json.WriteNull("group_count");
+        }
+
+        if (options.GroupCount == 0 && options.GroupCountRange is { } range)
+        {
+            json.WriteStartObject("group_count_range");
+            WritePositiveOrNull(json, "minimum", range.Minimum);
+            WritePositiveOrNull(json, "maximum", range.Maximum);
+            json.WriteEndObject();
+        }
+        else
+        {
+            json.WriteNull("group_count_range");
+        }
+
         if (options.HasSeed)
         {
             json.WriteNumber("seed", options.Seed);
@@ -111,6 +137,17 @@ internal static class JsonResultWriter
         WritePositiveOrNull(json, "term_count", options.TermCount);
         WritePositiveOrNull(json, "example_count", options.ExampleCount);
         json.WriteBoolean("include_bigrams", options.IncludeBigrams);
+        WritePositiveOrNull(json, "silhouette_sample_size", options.SilhouetteSampleSize);
+        if (options.OutlierThreshold > 0)
+        {
+            json.WriteNumber("outlier_threshold", options.OutlierThreshold);
+        }
+        else
+        {
+            json.WriteNull("outlier_threshold");
+        }
+
+        WritePositiveOrNull(json, "outlier_minimum_group_size", options.OutlierMinimumGroupSize);
         json.WriteEndObject();
     }
 

@@ -25,6 +25,18 @@ internal static class TextReport
         int documentCount = statistics.DocumentCount > 0 ? statistics.DocumentCount : response.Documents.Count;
 
         writer.WriteLine(Header(response, statistics, documentCount));
+        if (response.GroupCountChoice is { } choice)
+        {
+            writer.WriteLine();
+            GroupCountChart.Write(writer, choice);
+        }
+
+        if (NoStructureWarning(response) is string warning)
+        {
+            writer.WriteLine();
+            writer.WriteLine(warning);
+        }
+
         foreach (Group group in response.Groups.OrderByDescending(g => g.Size).ThenBy(g => g.Id))
         {
             writer.WriteLine();
@@ -33,6 +45,39 @@ internal static class TextReport
 
         writer.WriteLine();
         writer.WriteLine(OutlierSummary(response, documentCount));
+        if (QualitySummary(response) is string quality)
+        {
+            writer.WriteLine(quality);
+        }
+    }
+
+    /// <summary>The overall silhouette line; null when the reply has no quality figure (one group, or an older server).</summary>
+    internal static string? QualitySummary(GroupDocumentsResponse response)
+    {
+        GroupingQuality? quality = response.Quality;
+        if (quality is null || !quality.HasSilhouette)
+        {
+            return null;
+        }
+
+        int suggestions = response.Groups.Sum(g => g.Suggestions.Count);
+        string sampled = quality.SampleSize < response.Documents.Count ? "a sample of " + Count(quality.SampleSize, "document") : "every document";
+        return string.Create(Invariant,
+            $"Silhouette: {quality.Silhouette:F3} (mean over {sampled}; 1 = groups far apart, near 0 = no structure); "
+            + $"{Count(suggestions, "suggestion")} to review.");
+    }
+
+    /// <summary>A loud line when the grouping shows no structure: the groups are cuts, not themes.</summary>
+    internal static string? NoStructureWarning(GroupDocumentsResponse response)
+    {
+        if (response.Quality is not { NoStructure: true, HasSilhouette: true } quality)
+        {
+            return null;
+        }
+
+        return string.Create(Invariant,
+            $"NO CLEAR STRUCTURE: mean silhouette {quality.Silhouette:F3} is below {quality.NoStructureThreshold:F3}. These documents do not "
+            + $"fall into distinct themes; the groups below are arbitrary cuts. Read the terms and examples with that in mind.");
     }
 
     internal static string Header(GroupDocumentsResponse response, RunStatistics statistics, int documentCount)
@@ -53,10 +98,37 @@ internal static class TextReport
             ? string.Join(", ", group.Terms.Select(t => t.Term))
             : "(none: the texts are empty or only stop words)";
         writer.WriteLine($"  terms     {terms}");
+        if (QualityLine(group) is string quality)
+        {
+            writer.WriteLine($"  quality   {quality}");
+        }
+
         foreach (GroupExample example in group.Examples.Take(ExamplesShown))
         {
             writer.WriteLine($"  example   {OneLine(example.Text, ExampleWidth)}");
         }
+
+        foreach (GroupSuggestion suggestion in group.Suggestions)
+        {
+            writer.WriteLine($"  suggest   {suggestion.Message}");
+        }
+    }
+
+    /// <summary>"silhouette 0.214, nearest group 3 (centre cosine 0.712)"; null when the reply carries no quality figures.</summary>
+    internal static string? QualityLine(Group group)
+    {
+        var parts = new List<string>(2);
+        if (group.HasSilhouette)
+        {
+            parts.Add(string.Create(Invariant, $"silhouette {group.Silhouette:F3}"));
+        }
+
+        if (group.NearestGroupId > 0)
+        {
+            parts.Add(string.Create(Invariant, $"nearest group {group.NearestGroupId} (centre cosine {group.NearestGroupSimilarity:F3})"));
+        }
+
+        return parts.Count > 0 ? string.Join(", ", parts) : null;
     }
 
     internal static string OutlierSummary(GroupDocumentsResponse response, int documentCount)

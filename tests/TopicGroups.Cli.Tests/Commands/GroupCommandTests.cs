@@ -196,7 +196,7 @@ public sealed class GroupCommandTests : IDisposable
     }
 
     [Theory]
-    [InlineData("--groups", "0", "--groups must be at least 1 (got 0)")]
+    [InlineData("--groups", "0", "--groups '0' is not a count of at least 1, 'auto', or a range like 5..40")]
     [InlineData("--restarts", "-2", "--restarts must be at least 1 (got -2)")]
     [InlineData("--server", "localhost:5231", "--server 'localhost:5231' is not an absolute http:// or https:// address")]
     public async Task Group_InvalidOptionValue_ParseErrorExitTwo(string option, string value, string expected)
