@@ -86,6 +86,142 @@ public sealed class TopicGroupsClient
             cancellationToken);
     }
 
+    /// <summary>The resource name of a saved grouping: "groupings/{id}".</summary>
+    public static string GroupingName(string id)
+    {
+        ArgumentException.ThrowIfNullOrEmpty(id);
+        return "groupings/" + id;
+    }
+
+    /// <summary>A saved grouping by name ("groupings/{grouping}"); with <see cref="GroupingView.Full"/> every group carries its centre.</summary>
+    /// <exception cref="RpcException">NOT_FOUND for an unknown name; INVALID_ARGUMENT for a malformed one.</exception>
+    public async Task<Grouping> GetGroupingAsync(string name, GroupingView view = GroupingView.Basic, CancellationToken cancellationToken = default)
+    {
+        ArgumentNullException.ThrowIfNull(name);
+        var request = new GetGroupingRequest { Name = name, View = view };
+        return await _retry.ExecuteAsync(
+            async token => await _client.GetGroupingAsync(request, deadline: DateTime.UtcNow + _options.Timeout, cancellationToken: token),
+            cancellationToken);
+    }
+
+    /// <summary>Every saved grouping, newest first, fetched page by page as the sequence is read (groups are left out; see GetGroupingAsync).</summary>
+    /// <param name="pageSize">Groupings per call; 0 for the server's default (50).</param>
+    /// <param name="cancellationToken">Stops the listing between or during calls.</param>
+    public async IAsyncEnumerable<Grouping> ListGroupingsAsync(
+        int pageSize = 0,
+        [System.Runtime.CompilerServices.EnumeratorCancellation] CancellationToken cancellationToken = default)
+    {
+        string token = string.Empty;
+        do
+        {
+            var request = new ListGroupingsRequest { PageSize = pageSize, PageToken = token };
+            ListGroupingsResponse page = await _retry.ExecuteAsync(
+                async t => await _client.ListGroupingsAsync(request, deadline: DateTime.UtcNow + _options.Timeout, cancellationToken: t),
+                cancellationToken);
+            foreach (Grouping grouping in page.Groupings)
+            {
+                yield return grouping;
+            }
+
+            token = page.NextPageToken;
+        }
+        while (token.Length > 0);
+    }
+
+    /// <summary>Deletes a saved grouping.</summary>
+    /// <exception cref="RpcException">NOT_FOUND for an unknown name (also when a retried call had already deleted it).</exception>
+    public async Task DeleteGroupingAsync(string name, CancellationToken cancellationToken = default)
+    {
+        ArgumentNullException.ThrowIfNull(name);
+        var request = new DeleteGroupingRequest { Name = name };
+        await _retry.ExecuteAsync(
+            async token => await _client.DeleteGroupingAsync(request, deadline: DateTime.UtcNow + _options.Timeout, cancellationToken: token),
+            cancellationToken);
+    }
+
+    /// <summary>
+    /// Routes documents into a saved grouping's themes: each goes to the most similar saved centre, with its
+    /// similarity, margin, runner-up, and DocumentPlacement.IsOutlier when it fits no group. Documents need ids and
+    /// embeddings (texts are not sent). Up to StreamingThresholdBytes they travel in one message, beyond that in
+    /// chunks of about ChunkSizeBytes through StreamRouteDocuments. Placements come back in the documents' order.
+    /// </summary>
+    /// <exception cref="RpcException">NOT_FOUND for an unknown grouping; INVALID_ARGUMENT naming a bad document
+    /// (for streamed batches the field says chunks[c].documents[i]).</exception>
+    public async Task<IReadOnlyList<DocumentPlacement>> RouteDocumentsAsync(
+        string grouping,
+        IReadOnlyList<Document> documents,
+        CancellationToken cancellationToken = default)
+    {
+        ArgumentNullException.ThrowIfNull(grouping);
+        ArgumentNullException.ThrowIfNull(documents);
+        DateTime deadline = DateTime.UtcNow + _options.Timeout;
+
+        // Only ids and embeddings are needed: copies without the text keep the messages small.
+        var bare = new Document[documents.Count];
+        for (int i = 0; i < bare.Length; i++)
+        {
+            Document document = documents[i] ?? throw new ArgumentException($"documents[{i}] is null.", nameof(documents));
+            bare[i] = new Document { Id = document.Id };
+            bare[i].Embedding.Add(document.Embedding);
+        }
+
+        int[] sizes = EncodedSizes(bare, out long totalBytes);
+        if (totalBytes <= _options.StreamingThresholdBytes)
+        {
+            var request = new RouteDocumentsRequest { Grouping = grouping };
+            request.Documents.AddRange(bare);
+            RouteDocumentsResponse response = await _retry.ExecuteAsync(
+                async token => await _client.RouteDocumentsAsync(request, deadline: deadline, cancellationToken: token),
+                cancellationToken);
+            return response.Documents;
+        }
+
+        List<StreamGroupDocumentsRequest> chunks = Chunk(bare, sizes, new GroupingOptions(), _options.ChunkSizeBytes);
+        return await _retry.ExecuteAsync(async token => await StreamRouteAsync(grouping, chunks, deadline, token), cancellationToken);
+    }
+
+    private async Task<IReadOnlyList<DocumentPlacement>> StreamRouteAsync(
+        string grouping, List<StreamGroupDocumentsRequest> chunks, DateTime deadline, CancellationToken cancellationToken)
+    {
+        using AsyncDuplexStreamingCall<StreamRouteDocumentsRequest, RouteDocumentsResponse> call =
+            _client.StreamRouteDocuments(deadline: deadline, cancellationToken: cancellationToken);
+        var placements = new List<DocumentPlacement>(chunks.Sum(c => c.Documents.Count));
+        async Task ReadAsync()
+        {
+            await foreach (RouteDocumentsResponse reply in call.ResponseStream.ReadAllAsync(cancellationToken))
+            {
+                placements.AddRange(reply.Documents);
+            }
+        }
+
+        // Read while writing: the server answers each chunk as soon as it is routed.
+        Task reading = ReadAsync();
+        try
+        {
+            foreach (StreamGroupDocumentsRequest chunk in chunks)
+            {
+                if (reading.IsCompleted)
+                {
+                    break; // the server has ended the call (an error); its status is in `reading`
+                }
+
+                var request = new StreamRouteDocumentsRequest { ChunkIndex = chunk.ChunkIndex, Grouping = chunk.ChunkIndex == 0 ? grouping : string.Empty };
+                request.Documents.AddRange(chunk.Documents);
+                await call.RequestStream.WriteAsync(request, cancellationToken);
+            }
+
+            await call.RequestStream.CompleteAsync();
+        }
+        catch (Exception) when (!reading.IsCompletedSuccessfully)
+        {
+            await reading;
+            throw;
+        }
+
+        await reading;
+        return placements;
+    }
+
     /// <summary>True when the server's grpc.health.v1 check reports SERVING.</summary>
     /// <exception cref="RpcException">The server could not be reached (no retries here).</exception>
     public async Task<bool> CheckHealthAsync(CancellationToken cancellationToken = default)

@@ -3,7 +3,10 @@ using Grpc.AspNetCore.Server;
 using Microsoft.AspNetCore.Server.Kestrel.Core;
 using Microsoft.Extensions.Options;
 using TopicGroups.Core.Grouping;
+using Microsoft.Extensions.DependencyInjection.Extensions;
+using TopicGroups.Server.Embedding;
 using TopicGroups.Server.Services;
+using TopicGroups.Server.Storage;
 using TopicGroups.Server.Validation;
 
 namespace TopicGroups.Server;
@@ -63,6 +66,23 @@ public static class ServerHost
 
         services.AddSingleton<GroupingPipeline>();
         services.AddSingleton<GroupingRunner>();
+        services.AddOptions<TextEmbeddingOptions>()
+            .BindConfiguration(TextEmbeddingOptions.SectionName)
+            .PostConfigure(embedding => embedding.Validate())
+            .ValidateOnStart();
+        services.AddSingleton<TextEmbedding>();
+
+        // Saved groupings: PostgreSQL when a connection string is configured, else SQLite (docs/saved-groupings.md).
+        services.AddOptions<GroupingStoreOptions>().BindConfiguration(GroupingStoreOptions.SectionName);
+        services.AddSingleton<IGroupingStore>(provider =>
+        {
+            GroupingStoreOptions storage = provider.GetRequiredService<IOptions<GroupingStoreOptions>>().Value;
+            return string.IsNullOrWhiteSpace(storage.PostgresConnectionString)
+                ? new SqliteGroupingStore(storage.ResolvedSqlitePath)
+                : new PostgresGroupingStore(storage.PostgresConnectionString);
+        });
+        services.TryAddSingleton(TimeProvider.System);
+        services.AddSingleton<SavedGroupings>();
     }
 
     internal static void MapEndpoints(WebApplication app)

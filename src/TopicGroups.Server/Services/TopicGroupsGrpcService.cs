@@ -1,6 +1,8 @@
+using Google.Protobuf.WellKnownTypes;
 using Grpc.Core;
 using Microsoft.Extensions.Options;
 using TopicGroups.Core.Grouping;
+using TopicGroups.Server.Embedding;
 using TopicGroups.Server.Mapping;
 using TopicGroups.Server.Validation;
 using Proto = TopicGroups.Protos.V1;
@@ -8,7 +10,7 @@ using Proto = TopicGroups.Protos.V1;
 namespace TopicGroups.Server.Services;
 
 /// <summary>Translates only: proto, then Validation, then Core (off the request thread), then Mapping, then proto.</summary>
-internal sealed class TopicGroupsGrpcService(GroupingRunner runner, IOptions<TopicGroupsLimits> limits)
+internal sealed class TopicGroupsGrpcService(GroupingRunner runner, SavedGroupings saved, IOptions<TopicGroupsLimits> limits, TextEmbedding embedding)
     : Proto.TopicGroupsService.TopicGroupsServiceBase
 {
     private readonly TopicGroupsLimits _limits = limits.Value;
@@ -17,9 +19,16 @@ internal sealed class TopicGroupsGrpcService(GroupingRunner runner, IOptions<Top
         Proto.GroupDocumentsRequest request,
         ServerCallContext context)
     {
-        GroupingInput input = RequestValidator.ToInput(request, _limits);   // INVALID_ARGUMENT / RESOURCE_EXHAUSTED
-        GroupingResult result = await runner.RunAsync(input, progress: null, context);
-        return ResponseMapper.ToProto(result);
+        GroupingInput input = RequestValidator.ToInput(request, _limits, embedding, out TextsToEmbed? texts);   // INVALID_ARGUMENT / RESOURCE_EXHAUSTED
+        GroupingPlan plan = await saved.PrepareAsync(request.Options, input, context.CancellationToken);   // reference, save name
+        GroupingResult result = await runner.RunAsync(plan.Input, progress: null, context, texts);
+        Proto.GroupDocumentsResponse response = await saved.CompleteAsync(plan, result, context.CancellationToken);
+        if (texts?.Run is EmbeddingRun run)
+        {
+            EmbeddingStatistics.AddTo(response.Statistics, run);
+        }
+
+        return response;
     }
 
     public override async Task StreamGroupDocuments(
@@ -28,10 +37,12 @@ internal sealed class TopicGroupsGrpcService(GroupingRunner runner, IOptions<Top
         ServerCallContext context)
     {
         CancellationToken cancellationToken = context.CancellationToken;
-        var validator = new RequestValidator(_limits);
+        var validator = new RequestValidator(_limits, embedding);
+        Proto.GroupingOptions? options = null;
         await foreach (Proto.StreamGroupDocumentsRequest chunk in requestStream.ReadAllAsync(cancellationToken))
         {
             validator.AddChunk(chunk);
+            options ??= chunk.Options;   // chunk 0's (AddChunk has checked the order)
             var received = new Proto.GroupingProgress
             {
                 Stage = Proto.GroupingStage.Receiving,
@@ -40,19 +51,46 @@ internal sealed class TopicGroupsGrpcService(GroupingRunner runner, IOptions<Top
             await responseStream.WriteAsync(new Proto.StreamGroupDocumentsResponse { Progress = received }, cancellationToken);
         }
 
-        GroupingInput input = validator.ToInput();
+        GroupingInput input = validator.ToInput();   // options are present once this returns
+        GroupingPlan plan = await saved.PrepareAsync(options!, input, cancellationToken);
         var relay = new ProgressRelay(responseStream, cancellationToken);
         GroupingResult result;
         try
         {
-            result = await runner.RunAsync(input, relay.Post, context);
+            result = await runner.RunAsync(plan.Input, relay.Post, context, validator.TextsToEmbed, relay.PostEmbedding);
         }
         finally
         {
             await relay.CompleteAsync();
         }
 
-        var response = new Proto.StreamGroupDocumentsResponse { Result = ResponseMapper.ToProto(result) };
+        var response = new Proto.StreamGroupDocumentsResponse { Result = await saved.CompleteAsync(plan, result, cancellationToken) };
+        if (validator.TextsToEmbed?.Run is EmbeddingRun run)
+        {
+            EmbeddingStatistics.AddTo(response.Result.Statistics, run);
+        }
+
         await responseStream.WriteAsync(response, cancellationToken);
     }
+
+    public override Task<Proto.Grouping> GetGrouping(Proto.GetGroupingRequest request, ServerCallContext context) =>
+        saved.GetAsync(request, context.CancellationToken);
+
+    public override Task<Proto.ListGroupingsResponse> ListGroupings(Proto.ListGroupingsRequest request, ServerCallContext context) =>
+        saved.ListAsync(request, context.CancellationToken);
+
+    public override async Task<Empty> DeleteGrouping(Proto.DeleteGroupingRequest request, ServerCallContext context)
+    {
+        await saved.DeleteAsync(request, context.CancellationToken);
+        return new Empty();
+    }
+
+    public override Task<Proto.RouteDocumentsResponse> RouteDocuments(Proto.RouteDocumentsRequest request, ServerCallContext context) =>
+        saved.RouteAsync(request, context.CancellationToken);
+
+    public override Task StreamRouteDocuments(
+        IAsyncStreamReader<Proto.StreamRouteDocumentsRequest> requestStream,
+        IServerStreamWriter<Proto.RouteDocumentsResponse> responseStream,
+        ServerCallContext context) =>
+        saved.StreamRouteAsync(requestStream, responseStream, context.CancellationToken);
 }
