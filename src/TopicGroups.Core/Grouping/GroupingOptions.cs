@@ -73,6 +73,14 @@ public sealed record GroupingOptions
     /// <value>The default is null: every restart seeds with k-means++.</value>
     public float[]? InitialCentroids { get; init; }
 
+    /// <summary>Also place every document on a 2-D map (<see cref="GroupingResult.Map"/>): PCA of the unit vectors.</summary>
+    /// <value>The default is false.</value>
+    public bool IncludeMap { get; init; }
+
+    /// <summary>Documents the map's axes are fitted on (a seeded sample of larger batches; every document is placed).</summary>
+    /// <value>The default is 5,000.</value>
+    public int MapSampleSize { get; init; } = DocumentMap.DefaultSampleSize;
+
     internal GroupCountSearchOptions ToSearchOptions() => new()
     {
         MinimumGroupCount = MinimumGroupCount,

@@ -138,6 +138,10 @@ public sealed class GroupingPipeline
             Array.Copy(clustering.Centroids, clusterByRank[rank] * rows.Dimensions, centroids, rank * rows.Dimensions, rows.Dimensions);
         }
 
+        DocumentMap? map = options.IncludeMap
+            ? DocumentMap.Build(rows, centroids, options.MapSampleSize, options.Seed, options.MaxDegreeOfParallelism, cancellationToken)
+            : null;
+
         var statistics = new RunStatistics(
             clustering.Objective,
             clustering.Iterations,
@@ -151,6 +155,7 @@ public sealed class GroupingPipeline
         {
             GroupCountChoice = choice,
             Quality = quality,
+            Map = map,
         };
     }
 

@@ -51,6 +51,9 @@ public sealed record GroupingResult(
 
     /// <summary>The grouping's sampled mean silhouette and the no-structure verdict; null only for results built by hand.</summary>
     public GroupingQuality? Quality { get; init; }
+
+    /// <summary>Every document and centre on a 2-D map when <see cref="GroupingOptions.IncludeMap"/> was set; null otherwise.</summary>
+    public DocumentMap? Map { get; init; }
 }
 
 public enum GroupingStage
