@@ -196,7 +196,19 @@ public static class Continuity
         for (int i = 0; i < groups.Length; i++)
         {
             idMap.Add(current.Groups[i].Id, idOfPosition[i]);
-            groups[i] = current.Groups[i] with { Id = idOfPosition[i] };
+        }
+
+        // Ids also appear inside the quality figures (the nearest group, suggestions naming another group).
+        int Map(int id) => id == 0 ? 0 : idMap[id];
+        for (int i = 0; i < groups.Length; i++)
+        {
+            GroupSummary group = current.Groups[i];
+            GroupQuality? quality = group.Quality is null ? null : group.Quality with
+            {
+                NearestGroupId = Map(group.Quality.NearestGroupId),
+                Suggestions = group.Quality.Suggestions.Select(s => s with { OtherGroupId = Map(s.OtherGroupId) }).ToArray(),
+            };
+            groups[i] = group with { Id = idOfPosition[i], Quality = quality };
         }
 
         var documents = new DocumentPlacement[current.Documents.Count];

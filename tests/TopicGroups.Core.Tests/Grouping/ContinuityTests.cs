@@ -150,10 +150,15 @@ public sealed class ContinuityTests
         Assert.Equal(6, continued.HighestGroupId);
         Assert.Equal((330, 460), (report.ReferenceDocumentCount, report.DocumentCount));
 
-        // Placements, runner-ups and groups all use the new ids; centres stay with their groups.
+        // Placements, runner-ups, quality figures and groups all use the new ids; centres stay with their groups.
         var groupIds = relabelled.Groups.Select(g => g.Id).ToHashSet();
         Assert.All(relabelled.Documents, p => Assert.Contains(p.GroupId, groupIds));
         Assert.All(relabelled.Documents, p => Assert.Contains(p.RunnerUpGroupId, groupIds));
+        var newIdOfOld = after.Groups.Select((g, i) => (g.Id, relabelled.Groups[i].Id)).ToDictionary();
+        for (int i = 0; i < after.Groups.Count; i++)
+        {
+            Assert.Equal(newIdOfOld[after.Groups[i].Quality!.NearestGroupId], relabelled.Groups[i].Quality!.NearestGroupId);
+        }
         Assert.Equal(after.Centroids, relabelled.Centroids);
         Assert.Equal(after.Groups.Select(g => g.Size), relabelled.Groups.Select(g => g.Size));
     }
