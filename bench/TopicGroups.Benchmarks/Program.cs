@@ -50,5 +50,16 @@ if (args.Length > 0 && args[0] == "study")
     return 0;
 }
 
+if (args.Length > 0 && args[0] == "profile")
+{
+    // profile FILE.npy k iterations seed [threads [nopruning]]: seconds per phase of one fit
+    var matrix = NpyMatrix.Load(args[1]);
+    TopicGroups.Core.Vectors.RowNormalisation.NormaliseInPlace(matrix);
+    int threads = args.Length > 5 ? int.Parse(args[5]) : Environment.ProcessorCount;
+    bool pruning = args.Length <= 6 || args[6] != "nopruning";
+    QuickMeasurements.Profile(matrix, int.Parse(args[2]), int.Parse(args[3]), ulong.Parse(args[4]), threads, pruning);
+    return 0;
+}
+
 BenchmarkSwitcher.FromAssembly(typeof(BlockScoresBenchmarks).Assembly).Run(args);
 return 0;

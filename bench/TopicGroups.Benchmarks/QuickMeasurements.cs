@@ -115,15 +115,19 @@ internal static class QuickMeasurements
         return matrix;
     }
 
-    /// <summary>Seeding variants on one matrix: time, seeding objective and final reassigned objective, seeds 1..seeds.</summary>
+    /// <summary>
+    /// Variants of a fit on one matrix, interleaved (for each seed, every variant in turn) so that load drift on a
+    /// shared machine hits them alike: median wall and process CPU seconds, seeding seconds, final reassigned
+    /// objective. A variant name holds tokens: "plain" (k-means++ without candidates), "all" (seed on every row),
+    /// "noprune" (every pass scores every row).
+    /// </summary>
     public static void Study(EmbeddingMatrix matrix, int k, int iterations, ulong seeds, int threads)
     {
-        foreach (string variant in StudyVariants)
+        var results = StudyVariants.ToDictionary(v => v, _ => new List<(double Objective, double Wall, double Cpu, double Seeding)>());
+        using var process = Process.GetCurrentProcess();
+        for (ulong seed = 1; seed <= seeds; seed++)
         {
-            var objectives = new List<double>();
-            var times = new List<double>();
-            var seedingTimes = new List<double>();
-            for (ulong seed = 1; seed <= seeds; seed++)
+            foreach (string variant in StudyVariants)
             {
                 var options = new SphericalKMeansOptions
                 {
@@ -134,22 +138,31 @@ internal static class QuickMeasurements
                     Seed = seed,
                     MaxDegreeOfParallelism = threads,
                     SeedOnEveryRow = variant.Contains("all"),
-                    SeedCandidates = variant.StartsWith("plain") ? 1 : 0,
+                    SeedCandidates = variant.Contains("plain") ? 1 : 0,
+                    DisablePruning = variant.Contains("noprune"),
                 };
                 options = StudyOptions(options, variant);
+                process.Refresh();
+                TimeSpan cpuBefore = process.TotalProcessorTime;
                 ClusteringResult result = SphericalKMeans.Fit(matrix, options);
-                objectives.Add(NearestCentroid.Assign(matrix, result.Centroids, maxDegreeOfParallelism: threads));
-                times.Add(result.TotalTime.TotalSeconds);
-                seedingTimes.Add(result.SeedingTime.TotalSeconds);
+                process.Refresh();
+                double cpu = (process.TotalProcessorTime - cpuBefore).TotalSeconds;
+                double objective = NearestCentroid.Assign(matrix, result.Centroids, maxDegreeOfParallelism: threads);
+                results[variant].Add((objective, result.TotalTime.TotalSeconds, cpu, result.SeedingTime.TotalSeconds));
             }
+        }
 
+        foreach ((string variant, var runs) in results)
+        {
+            var objectives = runs.Select(r => r.Objective).ToList();
             Console.WriteLine(
                 $"{variant,-22} objective median {Median(objectives):F5} (min {objectives.Min():F5}, max {objectives.Max():F5}), " +
-                $"seconds median {Median(times):F3}, seeding {Median(seedingTimes):F3}");
+                $"wall median {Median(runs.Select(r => r.Wall).ToList()):F3} s, cpu median {Median(runs.Select(r => r.Cpu).ToList()):F3} s, " +
+                $"seeding {Median(runs.Select(r => r.Seeding).ToList()):F3} s");
         }
     }
 
-    public static string[] StudyVariants { get; set; } = ["plain-sample", "greedy-sample", "plain-all", "greedy-all"];
+    public static string[] StudyVariants { get; set; } = ["greedy-prune", "greedy-noprune"];
 
     public static Func<SphericalKMeansOptions, string, SphericalKMeansOptions> StudyOptions { get; set; } = (o, _) => o;
 
@@ -157,5 +170,69 @@ internal static class QuickMeasurements
     {
         var sorted = values.Order().ToArray();
         return sorted.Length % 2 == 1 ? sorted[sorted.Length / 2] : (sorted[sorted.Length / 2 - 1] + sorted[sorted.Length / 2]) / 2;
+    }
+
+    /// <summary>
+    /// Where a fit's time goes, phase by phase, on one matrix: seeding, then per Lloyd iteration the assignment
+    /// (blocked product + argmax), sizes, empty-group repair and the centroid update; one restart, exactly
+    /// <paramref name="iterations"/> iterations, the same calls SphericalKMeans.Fit makes.
+    /// </summary>
+    public static void Profile(EmbeddingMatrix matrix, int k, int iterations, ulong seed, int threads, bool pruning)
+    {
+        var options = new SphericalKMeansOptions { GroupCount = k, Seed = seed, MaxDegreeOfParallelism = threads };
+        long start = Stopwatch.GetTimestamp();
+        var ws = new ClusteringWorkspace(matrix, k, threads, sampleForSeeding: true, options.ResolveSeedCandidates(), pruning);
+        double setup = Stopwatch.GetElapsedTime(start).TotalSeconds;
+
+        start = Stopwatch.GetTimestamp();
+        SplitMix64 random = SplitMix64.ForStream(seed, 0);
+        ws.Seeding.Draw(ref random);
+        double draw = Stopwatch.GetElapsedTime(start).TotalSeconds;
+        start = Stopwatch.GetTimestamp();
+        KMeansPlusPlusSeeding.Seed(ws.Seeding, ws.Centroids, k, options.ResolveSeedCandidates(), ref random, CancellationToken.None);
+        double seeding = Stopwatch.GetElapsedTime(start).TotalSeconds;
+
+        double assign = 0, sizes = 0, repair = 0, update = 0;
+        Array.Fill(ws.Assignments, -1);
+        double objective = 0;
+        var perIteration = new List<string>();
+        for (int iteration = 1; iteration <= iterations; iteration++)
+        {
+            long t0 = Stopwatch.GetTimestamp();
+            (int reassigned, int scored) = GroupAssignment.AssignAll(ws);
+            long t1 = Stopwatch.GetTimestamp();
+            CentroidUpdate.CountSizes(ws);
+            long t2 = Stopwatch.GetTimestamp();
+            EmptyGroupRepair.Repair(ws);
+            long t3 = Stopwatch.GetTimestamp();
+            objective = CentroidUpdate.Update(ws);
+            long t4 = Stopwatch.GetTimestamp();
+            assign += Stopwatch.GetElapsedTime(t0, t1).TotalSeconds;
+            sizes += Stopwatch.GetElapsedTime(t1, t2).TotalSeconds;
+            repair += Stopwatch.GetElapsedTime(t2, t3).TotalSeconds;
+            update += Stopwatch.GetElapsedTime(t3, t4).TotalSeconds;
+            AssignmentBounds? b = ws.Bounds;
+            string stages = b is not null && iteration > 1
+                ? $"{b.Skipped.Sum()}/{b.SettledByJumpers.Sum()}/{b.SettledByNear.Sum()}/{scored}" +
+                  $"(θmax {b.Angle.Max():F3}, θmed {b.Angle.Order().ElementAt(k / 2):F4}, jumpers {b.JumperCount})"
+                : $"{scored}";
+            perIteration.Add($"{iteration}:{reassigned}:{stages}[{Stopwatch.GetElapsedTime(t0, t1).TotalMilliseconds:F0}ms]");
+        }
+
+        start = Stopwatch.GetTimestamp();
+        GroupAssignment.ScoreAssigned(ws);
+        double score = Stopwatch.GetElapsedTime(start).TotalSeconds;
+        double total = setup + draw + seeding + assign + sizes + repair + update + score;
+        double flops = 2.0 * matrix.Rows * matrix.Dimensions * k;
+        Console.WriteLine($"profile {matrix.Rows} x {matrix.Dimensions}, k = {k}, {iterations} iterations, {threads} thread(s), seed {seed}, pruning {(pruning ? "on" : "off")}: total {total:F3} s, objective {objective:F5}");
+        Console.WriteLine($"  workspace   {setup,7:F3} s");
+        Console.WriteLine($"  sample draw {draw,7:F3} s");
+        Console.WriteLine($"  seeding     {seeding,7:F3} s  ({ws.Seeding.N} pool rows, {options.ResolveSeedCandidates()} candidates per step)");
+        Console.WriteLine($"  assignment  {assign,7:F3} s  ({assign / iterations * 1000:F1} ms per iteration, {flops * iterations / assign / 1e9:F1} GFLOP/s)");
+        Console.WriteLine($"  sizes       {sizes,7:F3} s");
+        Console.WriteLine($"  repair      {repair,7:F3} s");
+        Console.WriteLine($"  update      {update,7:F3} s  ({update / iterations * 1000:F1} ms per iteration)");
+        Console.WriteLine($"  final score {score,7:F3} s");
+        Console.WriteLine($"  iteration:reassigned:bounds/jumpers/near/full[ms]: {string.Join(' ', perIteration)}");
     }
 }

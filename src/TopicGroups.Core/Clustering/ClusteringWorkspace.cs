@@ -8,7 +8,7 @@ namespace TopicGroups.Core.Clustering;
 /// </summary>
 internal sealed class ClusteringWorkspace
 {
-    public ClusteringWorkspace(EmbeddingMatrix unitRows, int groupCount, int workerCount, bool sampleForSeeding, int seedCandidates)
+    public ClusteringWorkspace(EmbeddingMatrix unitRows, int groupCount, int workerCount, bool sampleForSeeding, int seedCandidates, bool pruning = true)
     {
         Rows = unitRows.Values;
         N = unitRows.Rows;
@@ -33,6 +33,10 @@ internal sealed class ClusteringWorkspace
 
         GroupSizes = new int[K];
         Sums = new double[K * D];
+        SummedAssignments = new int[N];
+        Array.Fill(SummedAssignments, -1);
+
+        Bounds = pruning ? new AssignmentBounds(N, D, K, workerCount, Blocks.Count) : null;
 
         Seeding = new SeedingPool(Rows, N, D, K, workerCount, sampleForSeeding, seedCandidates);
     }
@@ -75,6 +79,12 @@ internal sealed class ClusteringWorkspace
 
     /// <summary>k × d, float64 sums of each group's member rows.</summary>
     public double[] Sums { get; }
+
+    /// <summary>Group of each row when <see cref="Sums"/> was last brought up to date (−1: not in any sum).</summary>
+    public int[] SummedAssignments { get; }
+
+    /// <summary>The pruning state (bounds per row, centroid movements), or null when every pass scores every row.</summary>
+    public AssignmentBounds? Bounds { get; }
 
     /// <summary>The rows k-means++ draws from (all, or a per-restart sample of large inputs).</summary>
     public SeedingPool Seeding { get; }

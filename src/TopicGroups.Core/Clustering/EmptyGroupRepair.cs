@@ -36,6 +36,13 @@ internal static class EmptyGroupRepair
             sizes[empty] = 1;
             ws.Assignments[worst] = empty;
             ws.Similarities[worst] = 1f;
+            if (ws.Bounds is not null)
+            {
+                // Its bounds and near centroids were about its old group: make the next pass score it in full.
+                ws.Bounds.OtherUpper[worst] = float.PositiveInfinity;
+                ws.Bounds.FarUpper[worst] = float.PositiveInfinity;
+            }
+
             moved++;
         }
 

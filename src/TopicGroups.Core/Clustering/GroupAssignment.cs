@@ -1,31 +1,73 @@
+using System.Numerics.Tensors;
 using System.Runtime.CompilerServices;
 using TopicGroups.Core.Vectors;
 
 namespace TopicGroups.Core.Clustering;
 
 /// <summary>The assignment step: each row goes to its most similar centroid.</summary>
+/// <remarks>
+/// Pruning (when the workspace has <see cref="AssignmentBounds"/>): Hamerly's bounds (Hamerly, 2010) in the
+/// cosine form of Schubert, Lang &amp; Feher (2021, "Accelerating spherical k-means"). Each row keeps a lower
+/// bound l on its cosine to its own centroid and an upper bound u on its cosine to any other. When centroid c
+/// moves by the angle θ_c, angles obey the triangle inequality on the sphere, so l becomes cos(arccos l + θ_own)
+/// and u becomes cos(max(0, arccos u − θ)), θ the largest move among the other centroids. A pass then settles
+/// each row by the cheapest test that proves its group:
+/// (1) bounds alone (nothing read but three floats);
+/// (2) bounds plus exact scores against the few "jumpers", centroids that moved far more than the rest, so that
+///     one big jump does not loosen every row's bound (scored for the undecided rows in one narrow panel);
+/// (3) exact cosines to the row's near centroids (its most similar ones at its last full scoring) against a
+///     bound on all the others;
+/// (4) the blocked product against every centroid.
+/// Every test keeps a slack of <see cref="RoundingMargin"/> between the two sides, which covers float32 rounding
+/// of the scores, so a pruned pass makes exactly the decisions of a full pass: the same assignments, bit for
+/// bit, whichever test settled a row; only the time differs.
+/// </remarks>
 internal static class GroupAssignment
 {
     /// <summary>
     /// Assigns every row to the argmax-cosine centroid (Dhillon &amp; Modha, 2001, §3); ties go to the lower
-    /// group index so runs repeat. Also records each row's cosine and its runner-up (best other group).
-    /// Returns the number of rows whose group changed and the mean best cosine (against these centroids).
+    /// group index so runs repeat. Rows scored in full also get their cosine and runner-up recorded; rows settled
+    /// otherwise keep estimates (the final <see cref="ScoreAssigned"/> makes them exact). Returns the number of
+    /// rows whose group changed and the number scored against every centroid (n when nothing was pruned).
     /// </summary>
-    public static (int Reassigned, double Objective) AssignAll(ClusteringWorkspace ws)
+    public static (int Reassigned, int Scored) AssignAll(ClusteringWorkspace ws)
     {
         RowBlocks blocks = ws.Blocks;
+        AssignmentBounds? bounds = ws.Bounds;
         ws.Panel.Pack(ws.Centroids);
-        blocks.ForEachBlock((block, worker) => AssignBlock(ws, block, worker));
+        bool pruned = bounds is { Valid: true } && ws.K > 1;
+        if (pruned)
+        {
+            MeasureMovements(ws, bounds!);
+
+            // When even the stable centroids moved this far, almost no row can be settled: the tests would only add their cost.
+            pruned = Math.Acos(bounds!.StableLargest.Cos) <= HopelessMove;
+        }
+
+        if (pruned)
+        {
+            blocks.ForEachBlock((block, worker) => AssignBlockPruned(ws, bounds!, block, worker));
+        }
+        else
+        {
+            blocks.ForEachBlock((block, worker) => AssignBlock(ws, block, worker));
+        }
+
+        if (bounds is not null)
+        {
+            ws.Centroids.CopyTo(bounds.PreviousCentroids, 0);
+            bounds.Valid = true;
+        }
 
         int reassigned = 0;
-        double sum = 0;
+        int scored = 0;
         for (int block = 0; block < blocks.Count; block++)
         {
             reassigned += ws.BlockReassigned[block];
-            sum += ws.BlockObjective[block];
+            scored += pruned ? bounds!.Scored[block] : blocks.Length(block);
         }
 
-        return (reassigned, sum / ws.N);
+        return (reassigned, scored);
     }
 
     /// <summary>
@@ -36,6 +78,92 @@ internal static class GroupAssignment
     {
         ws.Panel.Pack(ws.Centroids);
         ws.Blocks.ForEachBlock((block, worker) => ScoreAssignedBlock(ws, block, worker));
+    }
+
+    /// <summary>Radians: when the 17th-largest centroid move exceeds this, a pass scores every row in full (measured on the peers' M data: such passes settle under 5% of rows otherwise).</summary>
+    private const double HopelessMove = 0.3;
+
+    /// <summary>
+    /// Slack kept between the two sides of every pruning test, for dimension d: 4 (d + 2) · 2⁻²⁴. A float32 score
+    /// of unit vectors is within d · 2⁻²⁴ of the exact cosine (the error bound of a d-term FMA chain, Higham,
+    /// Accuracy and Stability of Numerical Algorithms, 2002, §3.1, from memory; +2 for centroids that are unit
+    /// only to float32 rounding). Bounds come from such scores and the full pass compares such scores, so a gap
+    /// of four such errors guarantees the full pass would decide the same.
+    /// </summary>
+    public static float RoundingMargin(int d) => 4f * (d + 2) / (1 << 24);
+
+    /// <summary>
+    /// The angle each centroid moved since the last pass, as 2·asin(‖a − b‖ / 2) of the two normalised
+    /// directions (stable for small angles, where arccos of a dot product is not); then the jumpers: the
+    /// 16 centroids that moved most (none when no centroid moved more than 0.002 radians).
+    /// </summary>
+    private static void MeasureMovements(ClusteringWorkspace ws, AssignmentBounds bounds)
+    {
+        int d = ws.D;
+        int k = ws.K;
+        for (int c = 0; c < k; c++)
+        {
+            ReadOnlySpan<float> before = bounds.PreviousCentroids.AsSpan(c * d, d);
+            ReadOnlySpan<float> after = ws.Centroids.AsSpan(c * d, d);
+            double beforeNorm = 0;
+            double afterNorm = 0;
+            for (int p = 0; p < d; p++)
+            {
+                beforeNorm += (double)before[p] * before[p];
+                afterNorm += (double)after[p] * after[p];
+            }
+
+            beforeNorm = Math.Sqrt(beforeNorm);
+            afterNorm = Math.Sqrt(afterNorm);
+            double gap = 0;
+            for (int p = 0; p < d; p++)
+            {
+                double difference = before[p] / beforeNorm - after[p] / afterNorm;
+                gap += difference * difference;
+            }
+
+            double angle = 2 * Math.Asin(Math.Min(1.0, Math.Sqrt(gap) / 2));
+            bounds.Angle[c] = angle;
+            bounds.Cos[c] = Math.Cos(angle);
+            bounds.Sin[c] = Math.Sin(angle);
+            bounds.ByAngle[c] = c;
+            bounds.SortKeys[c] = -angle;
+        }
+
+        Array.Sort(bounds.SortKeys, bounds.ByAngle);   // largest move first; ties in any fixed order
+        int[] order = bounds.ByAngle;
+        bounds.AllLargest = Largest(bounds, order, 0);
+
+        // The jumper panel costs the same for 1 or 16 columns, so take the 16 largest moves (when anything moved noticeably).
+        const double minimumJump = 0.002;
+        int jumpers = bounds.Angle[order[0]] > minimumJump ? Math.Min(k, AssignmentBounds.MaxJumpers) : 0;
+
+        Array.Fill(bounds.JumperSlot, -1);
+        bounds.JumperCount = jumpers;
+        bounds.JumperValues.AsSpan().Clear();
+        for (int slot = 0; slot < jumpers; slot++)
+        {
+            int c = order[slot];
+            bounds.Jumpers[slot] = c;
+            bounds.JumperSlot[c] = slot;
+            ws.Centroids.AsSpan(c * d, d).CopyTo(bounds.JumperValues.AsSpan(slot * d, d));
+        }
+
+        if (jumpers > 0)
+        {
+            bounds.JumperPanel.Pack(bounds.JumperValues);
+        }
+
+        bounds.StableLargest = Largest(bounds, order, jumpers);
+    }
+
+    /// <summary>The largest and second-largest move among order[from..].</summary>
+    private static (int, double, double, double, double) Largest(AssignmentBounds bounds, int[] order, int from)
+    {
+        int first = from < order.Length ? order[from] : -1;
+        double firstAngle = first >= 0 ? bounds.Angle[first] : 0;
+        double secondAngle = from + 1 < order.Length ? bounds.Angle[order[from + 1]] : 0;
+        return (first, Math.Cos(firstAngle), Math.Sin(firstAngle), Math.Cos(secondAngle), Math.Sin(secondAngle));
     }
 
     [MethodImpl(MethodImplOptions.AggressiveOptimization)]
@@ -49,51 +177,295 @@ internal static class GroupAssignment
         BlockScores.Compute(ws.Rows.AsSpan(start * d, length * d), ws.Panel, scores, k);
 
         int reassigned = 0;
-        double sum = 0;
         for (int r = 0; r < length; r++)
         {
-            ReadOnlySpan<float> rowScores = scores.Slice(r * k, k);
-            int best = 0;
-            float bestScore = rowScores[0];
-            int second = 0;
-            float secondScore = float.NegativeInfinity;
-            for (int j = 1; j < k; j++)
-            {
-                float score = rowScores[j];
-                if (score > bestScore)
-                {
-                    second = best;
-                    secondScore = bestScore;
-                    best = j;
-                    bestScore = score;
-                }
-                else if (score > secondScore)
-                {
-                    second = j;
-                    secondScore = score;
-                }
-            }
-
-            if (k == 1)
-            {
-                secondScore = bestScore;
-            }
-
-            int i = start + r;
-            if (ws.Assignments[i] != best)
-            {
-                reassigned++;
-                ws.Assignments[i] = best;
-            }
-
-            ws.Similarities[i] = bestScore;
-            ws.RunnerUpGroups[i] = second;
-            ws.RunnerUpSimilarities[i] = secondScore;
-            sum += bestScore;
+            reassigned += Place(ws, start + r, scores.Slice(r * k, k)) ? 1 : 0;
         }
 
         ws.BlockReassigned[block] = reassigned;
-        ws.BlockObjective[block] = sum;
+    }
+
+    /// <summary>One block through tests (1) to (4) of the class remarks.</summary>
+    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
+    private static void AssignBlockPruned(ClusteringWorkspace ws, AssignmentBounds bounds, int block, int worker)
+    {
+        int d = ws.D;
+        int k = ws.K;
+        int start = ws.Blocks.Start(block);
+        int length = ws.Blocks.Length(block);
+        float margin = RoundingMargin(d);
+        float[] lower = bounds.OwnLower;
+        float[] upper = bounds.OtherUpper;
+        float[] far = bounds.FarUpper;
+        int[] assignments = ws.Assignments;
+        float[] gathered = bounds.GatherRows[worker];
+        int[] indices = bounds.GatherIndices[worker];
+        var all = bounds.AllLargest;
+
+        // (1) Bounds alone.
+        int gatheredCount = 0;
+        for (int i = start; i < start + length; i++)
+        {
+            int own = assignments[i];
+            float l = (float)MovedLowerBound(lower[i], bounds.Cos[own], bounds.Sin[own]);
+            float u = own == all.Index
+                ? (float)MovedUpperBound(upper[i], all.SecondCos, all.SecondSin)
+                : (float)MovedUpperBound(upper[i], all.Cos, all.Sin);
+            if (l - u > margin)
+            {
+                lower[i] = l;
+                upper[i] = u;
+                far[i] = (float)MovedUpperBound(far[i], all.Cos, all.Sin);
+                continue;
+            }
+
+            ws.Row(i).CopyTo(gathered.AsSpan(gatheredCount * d, d));
+            indices[gatheredCount++] = i;
+        }
+
+        int jumpers = bounds.JumperCount;
+        float[] jumperScores = bounds.JumperScores[worker];
+        if (jumpers > 0 && gatheredCount > 0)
+        {
+            BlockScores.Compute(gathered.AsSpan(0, gatheredCount * d), bounds.JumperPanel, jumperScores, AssignmentBounds.MaxJumpers);
+        }
+
+        var stable = bounds.StableLargest;
+        int reassigned = 0;
+        int settledByJumpers = 0;
+        int settledByNear = 0;
+        int fullCount = 0;
+        Span<int> nearHere = stackalloc int[AssignmentBounds.NearCount];
+        for (int g = 0; g < gatheredCount; g++)
+        {
+            int i = indices[g];
+            int own = assignments[i];
+            ReadOnlySpan<float> jumperRow = jumperScores.AsSpan(g * AssignmentBounds.MaxJumpers, jumpers);
+
+            // (2) Stable centroids by their (smaller) moves, jumpers by exact scores.
+            float farStable = (float)MovedUpperBound(far[i], stable.Cos, stable.Sin);
+            int ownSlot = bounds.JumperSlot[own];
+            bounds.Near.AsSpan(i * AssignmentBounds.NearCount, AssignmentBounds.NearCount).CopyTo(nearHere);
+            float farJumperMax = float.NegativeInfinity;
+            for (int slot = 0; slot < jumpers; slot++)
+            {
+                if (!nearHere.Contains(bounds.Jumpers[slot]))
+                {
+                    farJumperMax = MathF.Max(farJumperMax, jumperRow[slot]);
+                }
+            }
+
+            if (jumpers > 0)
+            {
+                float otherStable = own == stable.Index
+                    ? (float)MovedUpperBound(upper[i], stable.SecondCos, stable.SecondSin)
+                    : (float)MovedUpperBound(upper[i], stable.Cos, stable.Sin);
+                float l = ownSlot >= 0 ? jumperRow[ownSlot] : (float)MovedLowerBound(lower[i], bounds.Cos[own], bounds.Sin[own]);
+                float jumperMax = float.NegativeInfinity;
+                for (int slot = 0; slot < jumpers; slot++)
+                {
+                    if (slot != ownSlot)
+                    {
+                        jumperMax = MathF.Max(jumperMax, jumperRow[slot]);
+                    }
+                }
+
+                float u = MathF.Max(otherStable, jumperMax);
+                if (l - u > margin)
+                {
+                    lower[i] = l;
+                    upper[i] = u;
+                    far[i] = MathF.Max(farStable, farJumperMax);
+                    settledByJumpers++;
+                    continue;
+                }
+            }
+
+            // (3) Exact cosines to the near centroids (own among them); jumpers outside the list by their exact scores.
+            ReadOnlySpan<float> row = gathered.AsSpan(g * d, d);
+            int best = -1;
+            float bestScore = float.NegativeInfinity;
+            int second = -1;
+            float secondScore = float.NegativeInfinity;
+            for (int t = 0; t < nearHere.Length && nearHere[t] >= 0; t++)
+            {
+                int c = nearHere[t];
+                int slot = bounds.JumperSlot[c];
+                float score = slot >= 0 ? jumperRow[slot] : TensorPrimitives.Dot(row, ws.Centroids.AsSpan(c * d, d));
+                Rank(c, score, ref best, ref bestScore, ref second, ref secondScore);
+            }
+
+            // The winner must beat the runner-up among the near ones, every jumper outside the list and the bound on the rest.
+            float rivals = MathF.Max(secondScore, MathF.Max(farJumperMax, farStable));
+            if (best >= 0 && bestScore - rivals > margin)
+            {
+                if (best != own)
+                {
+                    assignments[i] = best;
+                    reassigned++;
+                }
+
+                lower[i] = bestScore;
+                upper[i] = rivals;
+                far[i] = MathF.Max(farStable, farJumperMax);
+                ws.Similarities[i] = bestScore;
+                ws.RunnerUpGroups[i] = second;
+                ws.RunnerUpSimilarities[i] = secondScore;
+                settledByNear++;
+                continue;
+            }
+
+            // (4) Score in full: compact the undecided rows to the front of the gather buffer.
+            if (fullCount != g)
+            {
+                gathered.AsSpan(g * d, d).CopyTo(gathered.AsSpan(fullCount * d, d));
+                indices[fullCount] = i;
+            }
+
+            fullCount++;
+        }
+
+        if (fullCount > 0)
+        {
+            Span<float> scores = ws.BlockScratch[worker].AsSpan(0, fullCount * k);
+            BlockScores.Compute(gathered.AsSpan(0, fullCount * d), ws.Panel, scores, k);
+            for (int f = 0; f < fullCount; f++)
+            {
+                reassigned += Place(ws, indices[f], scores.Slice(f * k, k)) ? 1 : 0;
+            }
+        }
+
+        ws.BlockReassigned[block] = reassigned;
+        bounds.Skipped[block] = length - gatheredCount;
+        bounds.SettledByJumpers[block] = settledByJumpers;
+        bounds.SettledByNear[block] = settledByNear;
+        bounds.Scored[block] = fullCount;
+    }
+
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    private static void Rank(int c, float score, ref int best, ref float bestScore, ref int second, ref float secondScore)
+    {
+        if (score > bestScore)
+        {
+            second = best;
+            secondScore = bestScore;
+            best = c;
+            bestScore = score;
+        }
+        else if (score > secondScore)
+        {
+            second = c;
+            secondScore = score;
+        }
+    }
+
+    /// <summary>cos(arccos l + θ): the least cosine to a centroid that moved by θ, clamped at −1 past the antipode.</summary>
+    private static double MovedLowerBound(double l, double cos, double sin)
+    {
+        if (sin == 0)
+        {
+            return l;
+        }
+
+        if (cos <= -l)
+        {
+            return -1;
+        }
+
+        return l * cos - Math.Sqrt(Math.Max(0, 1 - l * l)) * sin;
+    }
+
+    /// <summary>cos(max(0, arccos u − θ)): the largest cosine to centroids that moved by at most θ.</summary>
+    private static double MovedUpperBound(double u, double cos, double sin)
+    {
+        if (sin == 0)
+        {
+            return u;
+        }
+
+        if (u >= cos)
+        {
+            return 1;
+        }
+
+        return u * cos + Math.Sqrt(Math.Max(0, 1 - u * u)) * sin;
+    }
+
+    /// <summary>Argmax and runner-up of one row's scores; records them (and, when pruning, the bounds). True when the group changed.</summary>
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    private static bool Place(ClusteringWorkspace ws, int i, ReadOnlySpan<float> rowScores)
+    {
+        if (ws.Bounds is not null)
+        {
+            return PlaceTracked(ws, ws.Bounds, i, rowScores);
+        }
+
+        int best = 0;
+        float bestScore = rowScores[0];
+        int second = 0;
+        float secondScore = float.NegativeInfinity;
+        for (int j = 1; j < rowScores.Length; j++)
+        {
+            Rank(j, rowScores[j], ref best, ref bestScore, ref second, ref secondScore);
+        }
+
+        if (rowScores.Length == 1)
+        {
+            secondScore = bestScore;
+        }
+
+        return Record(ws, i, best, bestScore, second, secondScore);
+    }
+
+    /// <summary>
+    /// Like <see cref="Place"/>, and also keeps the row's near centroids (its top NearCount, ties to the lower
+    /// index, so the first is the argmax) and the next score as the bound on all the others.
+    /// </summary>
+    private static bool PlaceTracked(ClusteringWorkspace ws, AssignmentBounds bounds, int i, ReadOnlySpan<float> rowScores)
+    {
+        const int near = AssignmentBounds.NearCount;
+        const int tracked = near + 1;
+        Span<int> top = stackalloc int[tracked];
+        Span<float> topScores = stackalloc float[tracked];
+        top.Fill(-1);
+        topScores.Fill(float.NegativeInfinity);
+        for (int j = 0; j < rowScores.Length; j++)
+        {
+            float score = rowScores[j];
+            if (!(score > topScores[tracked - 1]))
+            {
+                continue;
+            }
+
+            int slot = tracked - 1;
+            while (slot > 0 && score > topScores[slot - 1])
+            {
+                top[slot] = top[slot - 1];
+                topScores[slot] = topScores[slot - 1];
+                slot--;
+            }
+
+            top[slot] = j;
+            topScores[slot] = score;
+        }
+
+        top[..near].CopyTo(bounds.Near.AsSpan(i * near, near));
+        bounds.FarUpper[i] = top[near] >= 0 ? topScores[near] : -1f;
+        bounds.OwnLower[i] = topScores[0];
+        bounds.OtherUpper[i] = rowScores.Length == 1 ? -1f : topScores[1];
+        return rowScores.Length == 1
+            ? Record(ws, i, top[0], topScores[0], top[0], topScores[0])
+            : Record(ws, i, top[0], topScores[0], top[1], topScores[1]);
+    }
+
+    private static bool Record(ClusteringWorkspace ws, int i, int best, float bestScore, int second, float secondScore)
+    {
+        bool changed = ws.Assignments[i] != best;
+        ws.Assignments[i] = best;
+        ws.Similarities[i] = bestScore;
+        ws.RunnerUpGroups[i] = second;
+        ws.RunnerUpSimilarities[i] = secondScore;
+        return changed;
     }
 
     [MethodImpl(MethodImplOptions.AggressiveOptimization)]

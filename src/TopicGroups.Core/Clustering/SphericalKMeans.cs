@@ -39,7 +39,7 @@ public static class SphericalKMeans
         int d = unitRows.Dimensions;
         int k = options.GroupCount;
         int seedCandidates = options.ResolveSeedCandidates();
-        var ws = new ClusteringWorkspace(unitRows, k, options.ResolveWorkerCount(), !options.SeedOnEveryRow, seedCandidates);
+        var ws = new ClusteringWorkspace(unitRows, k, options.ResolveWorkerCount(), !options.SeedOnEveryRow, seedCandidates, options.ResolvePruning());
 
         // The kept run, copied out of the workspace whenever a restart beats it.
         float[] keptCentroids = new float[k * d];
@@ -133,6 +133,12 @@ public static class SphericalKMeans
     {
         history.Clear();
         Array.Fill(ws.Assignments, -1);
+        if (ws.Bounds is not null)
+        {
+            ws.Bounds.Valid = false;
+        }
+
+        CentroidUpdate.Reset(ws);
         double previousObjective = seedingObjective;
         double objective = seedingObjective;
         bool converged = false;
@@ -143,7 +149,7 @@ public static class SphericalKMeans
             cancellationToken.ThrowIfCancellationRequested();
             long iterationStart = Stopwatch.GetTimestamp();
 
-            (int reassigned, _) = GroupAssignment.AssignAll(ws);
+            (int reassigned, int scored) = GroupAssignment.AssignAll(ws);
             CentroidUpdate.CountSizes(ws);
             int repaired = EmptyGroupRepair.Repair(ws);
             objective = CentroidUpdate.Update(ws);
@@ -152,8 +158,8 @@ public static class SphericalKMeans
             progress?.Invoke(new ClusteringProgress(ClusteringStage.Refining, restart, iteration, objective));
 
             // With no change and no repair the new centroids equal the ones just scored against, bit for
-            // bit (same members, same summation order), so the recorded cosines are already current.
-            scoresAreCurrent = reassigned == 0 && repaired == 0;
+            // bit (same sums), so the recorded cosines are current if every row was scored (none pruned).
+            scoresAreCurrent = reassigned == 0 && repaired == 0 && scored == ws.N;
             if (options.RunAllIterations)
             {
                 previousObjective = objective;
