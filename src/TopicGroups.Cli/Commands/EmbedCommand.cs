@@ -1,9 +1,9 @@
 using System.CommandLine;
 using System.Diagnostics;
 using System.Globalization;
-using TopicGroups.Cli.Embedding;
 using TopicGroups.Cli.Input;
 using TopicGroups.Cli.Output;
+using TopicGroups.Server.Embedding;
 
 namespace TopicGroups.Cli.Commands;
 
@@ -60,9 +60,10 @@ internal static class EmbedCommand
             using var embedder = new MiniLmEmbedder();
             TimeSpan loading = stopwatch.Elapsed;
             stopwatch.Restart();
+            int truncated;
             using (ProgressLine? progress = ProgressLine.ForTerminal(error))
             {
-                embedder.Embed(texts, vectors, batchSize, workers, progress, cancellationToken);
+                truncated = embedder.Embed(texts, vectors, batchSize, workers, progress, cancellationToken);
             }
 
             TimeSpan embedding = stopwatch.Elapsed;
@@ -70,6 +71,12 @@ internal static class EmbedCommand
             output.WriteLine(string.Create(CultureInfo.InvariantCulture,
                 $"embedded {texts.Length:N0} texts in {embedding.TotalSeconds:F1} s ({texts.Length / embedding.TotalSeconds:F1} docs/s, {workers} worker{(workers == 1 ? "" : "s")}, batch {batchSize}; model load {loading.TotalSeconds:F1} s)"));
             output.WriteLine($"wrote {outputPath}: float32, shape ({texts.Length}, {MiniLmEmbedder.Dimensions})");
+            if (truncated > 0)
+            {
+                output.WriteLine(
+                    $"{truncated} text{(truncated == 1 ? " was" : "s were")} longer than the model's window of {MiniLmEmbedder.WindowTokens} word pieces; "
+                    + "only the beginning of each was embedded (docs/embedding.md)");
+            }
             return ExitCodes.Success;
         }
         catch (OperationCanceledException) when (cancellationToken.IsCancellationRequested)

@@ -23,6 +23,7 @@ internal static class OptionsMapper
             SilhouetteSampleSize = options.SilhouetteSampleSize == 0 ? defaults.SilhouetteSampleSize : options.SilhouetteSampleSize,
             OutlierScoreThreshold = options.OutlierThreshold == 0 ? defaults.OutlierScoreThreshold : options.OutlierThreshold,
             OutlierMinimumGroupSize = options.OutlierMinimumGroupSize == 0 ? defaults.OutlierMinimumGroupSize : options.OutlierMinimumGroupSize,
+            IncludeMap = options.IncludeMap,
         };
     }
 }

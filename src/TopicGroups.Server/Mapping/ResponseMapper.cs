@@ -50,6 +50,11 @@ internal static class ResponseMapper
             }
         }
 
+        if (result.Map is { } map)
+        {
+            DocumentMapMapper.AddTo(response, map);
+        }
+
         return response;
     }
 

@@ -1,6 +1,7 @@
 using System.Diagnostics.Metrics;
 using Grpc.Core;
 using TopicGroups.Core.Grouping;
+using TopicGroups.Server.Embedding;
 
 namespace TopicGroups.Server.Services;
 
@@ -26,10 +27,17 @@ internal sealed class GroupingRunner
             description: "Groupings whose computation is running now; it drops when a cancelled run has really stopped.");
     }
 
+    /// <param name="input">The validated batch.</param>
+    /// <param name="progress">Grouping progress, from the computing thread.</param>
+    /// <param name="context">The call: its token and deadline.</param>
+    /// <param name="textsToEmbed">For a texts-only batch: embedded into input's matrix first, on the same thread.</param>
+    /// <param name="embeddingProgress">(done, total) while texts are embedded.</param>
     public async Task<GroupingResult> RunAsync(
         GroupingInput input,
         Action<GroupingProgress>? progress,
-        ServerCallContext context)
+        ServerCallContext context,
+        TextsToEmbed? textsToEmbed = null,
+        Action<int, int>? embeddingProgress = null)
     {
         CancellationToken cancellationToken = context.CancellationToken;
         _activeRuns.Add(1);
@@ -40,18 +48,26 @@ internal sealed class GroupingRunner
             // them. Run from a pool thread, a long run was seen to hold back deadline timers for minutes.
             // The awaited task ends only when Run returns or throws, so the counter tracks real CPU work.
             return await Task.Factory.StartNew(
-                () => _pipeline.Run(input, progress, cancellationToken),
+                () =>
+                {
+                    textsToEmbed?.Embed(embeddingProgress, cancellationToken);
+                    return _pipeline.Run(input, progress, cancellationToken);
+                },
                 cancellationToken,
                 TaskCreationOptions.LongRunning,
                 TaskScheduler.Default);
         }
         catch (OperationCanceledException) when (cancellationToken.IsCancellationRequested)
         {
+            bool embedding = textsToEmbed is { Run: null };
             throw context.Deadline <= DateTime.UtcNow
                 ? new RpcException(new Status(
                     StatusCode.DeadlineExceeded,
-                    "The grouping did not finish before the call's deadline and was stopped; allow a longer deadline, "
-                    + "or lower options.restart_count or options.max_iterations."))
+                    embedding
+                        ? $"The server was still embedding the {textsToEmbed!.Count} texts when the call's deadline passed and stopped; "
+                          + "allow a longer deadline (docs/embedding.md gives the throughput), or send embeddings with the documents."
+                        : "The grouping did not finish before the call's deadline and was stopped; allow a longer deadline, "
+                          + "or lower options.restart_count or options.max_iterations."))
                 : new RpcException(new Status(StatusCode.Cancelled, "The caller cancelled the call; the grouping was stopped."));
         }
         finally

@@ -26,6 +26,9 @@ internal sealed class ProgressRelay
 
     public void Post(GroupingProgress progress) => _pending.Writer.TryWrite(ResponseMapper.ToProto(progress));
 
+    /// <summary>Texts embedded so far (GROUPING_STAGE_EMBEDDING).</summary>
+    public void PostEmbedding(int done, int total) => _pending.Writer.TryWrite(EmbeddingStatistics.Progress(done, total));
+
     /// <summary>Writes what is still pending, then returns; the stream is free for the result afterwards.</summary>
     public async Task CompleteAsync()
     {

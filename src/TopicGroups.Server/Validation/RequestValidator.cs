@@ -5,6 +5,7 @@ using TopicGroups.Core.Clustering;
 using TopicGroups.Core.Grouping;
 using TopicGroups.Core.Terms;
 using TopicGroups.Core.Vectors;
+using TopicGroups.Server.Embedding;
 using TopicGroups.Server.Mapping;
 using Proto = TopicGroups.Protos.V1;
 
@@ -12,7 +13,9 @@ namespace TopicGroups.Server.Validation;
 
 /// <summary>
 /// Turns a request (one message, or the chunks of a stream) into a <see cref="GroupingInput"/>: checks
-/// every document and option, then copies the embeddings once into one row-major float[].
+/// every document and option, then copies the embeddings once into one row-major float[]. A batch whose
+/// documents all come without embeddings is accepted when the server embeds texts (<see cref="TextEmbedding"/>):
+/// its matrix is then allocated empty and <see cref="TextsToEmbed"/> says what to fill it with.
 /// Bad input throws INVALID_ARGUMENT with up to <see cref="MaxViolations"/> field violations; input over a
 /// configured size limit throws RESOURCE_EXHAUSTED at once, before more of it is held.
 /// </summary>
@@ -28,24 +31,39 @@ internal sealed class RequestValidator
     private Proto.GroupingOptions? _options;
     private int _dimensions;                // of the first document with an embedding; 0 until one arrives
     private int _dimensionsSource = -1;     // index of that document, quoted in mismatch messages
+    private int _textsOnlySource = -1;      // index of the first document, when it came without an embedding
+    private readonly TextEmbedding? _embedding;
     private long _embeddingValues;
     private int _nextChunkIndex;
 
-    public RequestValidator(TopicGroupsLimits limits)
+    /// <param name="limits">Size limits.</param>
+    /// <param name="embedding">The server's text embedding; null (or disabled) refuses documents without embeddings.</param>
+    public RequestValidator(TopicGroupsLimits limits, TextEmbedding? embedding = null)
     {
         ArgumentNullException.ThrowIfNull(limits);
         _limits = limits;
+        _embedding = embedding;
     }
+
+    /// <summary>Set by <see cref="ToInput()"/> when the documents came without embeddings: the texts the server must embed first.</summary>
+    public TextsToEmbed? TextsToEmbed { get; private set; }
 
     /// <summary>Documents accepted so far (across chunks).</summary>
     public int DocumentCount => _documents.Count;
 
     /// <summary>Checks a unary request and builds the Core input.</summary>
-    public static GroupingInput ToInput(Proto.GroupDocumentsRequest request, TopicGroupsLimits limits)
+    public static GroupingInput ToInput(Proto.GroupDocumentsRequest request, TopicGroupsLimits limits) =>
+        ToInput(request, limits, embedding: null, out _);
+
+    /// <summary>Checks a unary request and builds the Core input; <paramref name="textsToEmbed"/> as <see cref="TextsToEmbed"/>.</summary>
+    public static GroupingInput ToInput(
+        Proto.GroupDocumentsRequest request, TopicGroupsLimits limits, TextEmbedding? embedding, out TextsToEmbed? textsToEmbed)
     {
-        var validator = new RequestValidator(limits) { _options = request.Options };
+        var validator = new RequestValidator(limits, embedding) { _options = request.Options };
         validator.AddDocuments(request.Documents, chunkIndex: null);
-        return validator.ToInput();
+        GroupingInput input = validator.ToInput();
+        textsToEmbed = validator.TextsToEmbed;
+        return input;
     }
 
     /// <summary>Checks one chunk of a stream: its index, its options (first chunk only) and its documents.</summary>
@@ -85,6 +103,10 @@ internal sealed class RequestValidator
 
         CheckOptions(n);
         ThrowIfInvalid();
+        if (_textsOnlySource >= 0)
+        {
+            return TextsOnlyInput(n);
+        }
 
         int d = _dimensions;
         float[] values = new float[checked(n * d)];
@@ -112,6 +134,32 @@ internal sealed class RequestValidator
         return new GroupingInput(ids, texts, embeddings, OptionsMapper.ToCore(_options!));
     }
 
+    /// <summary>Ids and texts now; the matrix is allocated (zeros) for the server's model to fill before grouping.</summary>
+    private GroupingInput TextsOnlyInput(int n)
+    {
+        int d = MiniLmEmbedder.Dimensions;
+        if ((long)n * d > _limits.MaxEmbeddingValues)
+        {
+            throw StatusErrors.ResourceExhausted(
+                "documents",
+                $"are {n} texts to embed, {(long)n * d} values of {d} dimensions: more than the {_limits.MaxEmbeddingValues} "
+                + "embedding values this server holds for one batch (TopicGroups:Limits:MaxEmbeddingValues). Split the batch into smaller ones.");
+        }
+
+        string[] ids = new string[n];
+        string[] texts = new string[n];
+        for (int i = 0; i < n; i++)
+        {
+            ids[i] = _documents[i].Id;
+            texts[i] = _documents[i].Text;
+        }
+
+        _documents.Clear();
+        var embeddings = EmbeddingMatrix.Allocate(n, d);
+        TextsToEmbed = new TextsToEmbed(texts, embeddings, _embedding!);
+        return new GroupingInput(ids, texts, embeddings, OptionsMapper.ToCore(_options!));
+    }
+
     private void AddDocuments(RepeatedField<Proto.Document> documents, int? chunkIndex)
     {
         if ((long)_documents.Count + documents.Count > _limits.MaxDocuments)
@@ -128,7 +176,7 @@ internal sealed class RequestValidator
             _documents.Add(document);
             CheckId(document.Id, index);
             CheckText(document.Text, index);
-            CheckEmbedding(document.Embedding, index, chunkIndex);
+            CheckEmbedding(document.Embedding, index, chunkIndex, document.Text);
             if (_violations.Count >= MaxViolations)
             {
                 ThrowIfInvalid();
@@ -169,17 +217,23 @@ internal sealed class RequestValidator
         }
     }
 
-    private void CheckEmbedding(RepeatedField<float> embedding, int index, int? chunkIndex)
+    private void CheckEmbedding(RepeatedField<float> embedding, int index, int? chunkIndex, string text)
     {
         string field = $"documents[{index}].embedding";
         int count = embedding.Count;
         if (count == 0)
         {
+            CheckTextOnly(index, text);
+            return;
+        }
+
+        if (_textsOnlySource >= 0)
+        {
             AddViolation(
                 field,
-                _dimensions > 0
-                    ? $"is empty; send the embedding the text was made from ({_dimensions} values, like documents[{_dimensionsSource}])."
-                    : "is empty; every document needs the embedding its text was made from.");
+                $"has {count} values but documents[{_textsOnlySource}].embedding is empty; a batch is embedded by the caller or by "
+                + $"the server, not both. Send an embedding with every document, or leave them out of every document and the server "
+                + $"embeds the texts ({MiniLmEmbedder.ModelName}).");
             return;
         }
 
@@ -217,6 +271,43 @@ internal sealed class RequestValidator
         }
 
         CheckValues(UnsafeCollectionOperations.AsSpan(embedding), field);
+    }
+
+    /// <summary>A document without an embedding: fine when the whole batch is texts-only and the server embeds texts.</summary>
+    private void CheckTextOnly(int index, string text)
+    {
+        string field = $"documents[{index}].embedding";
+        if (_dimensions > 0)
+        {
+            AddViolation(
+                field,
+                $"is empty but documents[{_dimensionsSource}].embedding has {_dimensions} values; a batch is embedded by the caller or "
+                + "by the server, not both. Send the embedding the text was made from, or leave the embeddings out of every document "
+                + "and the server embeds the texts.");
+            return;
+        }
+
+        if (_textsOnlySource < 0)
+        {
+            if (_embedding is not { Enabled: true })
+            {
+                throw StatusErrors.FailedPrecondition(
+                    "TEXT_EMBEDDING_DISABLED",
+                    $"{TextEmbeddingOptions.SectionName}:Enabled",
+                    $"Documents came without embeddings (documents[{index}].embedding is empty) and this server does not embed texts: "
+                    + $"{TextEmbeddingOptions.SectionName}:Enabled is false. Send an embedding with every document, or start the "
+                    + $"server with --{TextEmbeddingOptions.SectionName}:Enabled=true (docs/embedding.md).");
+            }
+
+            _textsOnlySource = index;
+        }
+
+        if (string.IsNullOrWhiteSpace(text))
+        {
+            AddViolation(
+                $"documents[{index}].text",
+                "is empty, and with no embedding the server embeds the text: send the document's text, or leave the document out.");
+        }
     }
 
     private void CheckValues(ReadOnlySpan<float> values, string field)

@@ -28,6 +28,24 @@ internal static class StatusErrors
     public static RpcException InvalidArgument(string field, string description) =>
         InvalidArgument([new BadRequest.Types.FieldViolation { Field = field, Description = description }]);
 
+    /// <summary>
+    /// FAILED_PRECONDITION with a google.rpc.PreconditionFailure: the request is well formed, but this server's
+    /// configuration or state refuses it. <paramref name="subject"/> names what must change (e.g. a configuration key).
+    /// </summary>
+    public static RpcException FailedPrecondition(string type, string subject, string description)
+    {
+        var preconditionFailure = new PreconditionFailure
+        {
+            Violations = { new PreconditionFailure.Types.Violation { Type = type, Subject = subject, Description = description } },
+        };
+        return new Google.Rpc.Status
+        {
+            Code = (int)Code.FailedPrecondition,
+            Message = description,
+            Details = { Any.Pack(preconditionFailure) },
+        }.ToRpcException();
+    }
+
     /// <summary>RESOURCE_EXHAUSTED with a google.rpc.QuotaFailure whose subject is the field over the limit.</summary>
     public static RpcException ResourceExhausted(string field, string description)
     {

@@ -1,7 +1,7 @@
 using TopicGroups.Cli.Commands;
-using TopicGroups.Cli.Embedding;
 using TopicGroups.Cli.Input;
 using TopicGroups.Cli.Tests.TestSupport;
+using TopicGroups.Server.Embedding;
 
 namespace TopicGroups.Cli.Tests.Commands;
 
@@ -59,19 +59,6 @@ public sealed class EmbedCommandTests : IDisposable
         Assert.True(Dot(values, 0, 1) > Dot(values, 0, 2) + 0.1f, $"cos(refund, refund) {Dot(values, 0, 1)} vs cos(refund, crash) {Dot(values, 0, 2)}");
         Assert.Contains("embedded 3 texts in ", output);
         Assert.Contains("docs/s", output);
-    }
-
-    [Fact]
-    public void Embed_OneWorkerOrTwo_IdenticalVectors()
-    {
-        using var embedder = new MiniLmEmbedder();
-        float[] one = new float[Texts.Length * MiniLmEmbedder.Dimensions];
-        float[] two = new float[Texts.Length * MiniLmEmbedder.Dimensions];
-
-        embedder.Embed(Texts, one, batchSize: 1, workers: 1);
-        embedder.Embed(Texts, two, batchSize: 1, workers: 2);
-
-        Assert.Equal(one, two);
     }
 
     [Fact]
