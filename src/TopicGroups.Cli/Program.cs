@@ -37,6 +37,8 @@ internal static class Program
             GroupCommand.Create(grouping),
             EmbedCommand.Create(),
             DemoCommand.Create(grouping),
+            RouteCommand.Create(),
+            GroupingsCommand.Create(),
             BenchCommand.Create(),
         };
 }

@@ -39,9 +39,16 @@ public static class ServerHost
     }
 
     /// <summary>Starts a server on a free loopback port and returns it with its address.</summary>
-    public static async Task<(WebApplication App, Uri Address)> StartInProcessAsync(CancellationToken cancellationToken = default)
+    public static Task<(WebApplication App, Uri Address)> StartInProcessAsync(CancellationToken cancellationToken = default) =>
+        StartInProcessAsync(new Dictionary<string, string>(), cancellationToken);
+
+    /// <summary>The same, with configuration settings, e.g. ["TopicGroups:Storage:SqlitePath"] = a file of the caller's.</summary>
+    public static async Task<(WebApplication App, Uri Address)> StartInProcessAsync(
+        IReadOnlyDictionary<string, string> settings, CancellationToken cancellationToken = default)
     {
-        var app = Build(["--Logging:LogLevel:Default=Warning"], port: 0);
+        ArgumentNullException.ThrowIfNull(settings);
+        string[] args = ["--Logging:LogLevel:Default=Warning", .. settings.Select(setting => $"--{setting.Key}={setting.Value}")];
+        var app = Build(args, port: 0);
         await app.StartAsync(cancellationToken);
         string address = app.Urls.First();
         return (app, new Uri(address));

@@ -38,7 +38,11 @@ internal static class RpcErrorText
         return lines;
     }
 
-    /// <summary>Bad input (exit code 2) as opposed to a failure of the service or the network (exit code 1).</summary>
+    /// <summary>
+    /// Bad input (exit code 2) as opposed to a failure of the service or the network (exit code 1). An unknown
+    /// grouping name (NOT_FOUND) or a name already taken (ALREADY_EXISTS) is the caller's to fix too.
+    /// </summary>
     public static bool IsBadInput(StatusCode code) =>
-        code is StatusCode.InvalidArgument or StatusCode.OutOfRange or StatusCode.ResourceExhausted or StatusCode.FailedPrecondition;
+        code is StatusCode.InvalidArgument or StatusCode.OutOfRange or StatusCode.ResourceExhausted or StatusCode.FailedPrecondition
+            or StatusCode.NotFound or StatusCode.AlreadyExists;
 }
