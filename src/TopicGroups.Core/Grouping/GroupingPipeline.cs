@@ -139,7 +139,7 @@ public sealed class GroupingPipeline
         }
 
         DocumentMap? map = options.IncludeMap
-            ? DocumentMap.Build(rows, centroids, options.MapSampleSize, options.Seed, options.MaxDegreeOfParallelism, cancellationToken)
+            ? DocumentMap.Build(rows, documents.Select(d => d.GroupId - 1).ToArray(), k, options.MapSampleSize, options.Seed, options.MaxDegreeOfParallelism, cancellationToken)
             : null;
 
         var statistics = new RunStatistics(

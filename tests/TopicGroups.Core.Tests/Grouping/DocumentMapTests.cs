@@ -35,6 +35,14 @@ public sealed class DocumentMapTests
                 .First();
             Assert.True(own == nearest, $"document {i} of group {own} is drawn nearest group {nearest}");
         }
+
+        // Each group is drawn at the mean position of its documents.
+        for (int g = 1; g <= 3; g++)
+        {
+            int[] members = Enumerable.Range(0, 300).Where(i => result.Documents[i].GroupId == g).ToArray();
+            Assert.Equal(members.Average(i => map.Coordinates[2 * i]), map.GroupCentres[2 * (g - 1)], 4);
+            Assert.Equal(members.Average(i => map.Coordinates[2 * i + 1]), map.GroupCentres[2 * (g - 1) + 1], 4);
+        }
     }
 
     [Fact]
