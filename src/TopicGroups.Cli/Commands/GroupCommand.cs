@@ -35,23 +35,30 @@ internal static class GroupCommand
         };
         Option<GroupCountSpec> groups = GroupCountOption.Create();
         var options = new GroupingOptionSet();
+        var saving = new SavedGroupingOptionSet();
 
         var command = new Command("group", "Group documents by their embeddings and describe each group.")
         {
             input, embeddings, groups,
         };
         options.AddTo(command);
+        saving.AddTo(command);
 
         command.SetAction((parseResult, cancellationToken) =>
         {
-            var run = new GroupRun(
-                parseResult.GetRequiredValue(input),
-                parseResult.GetValue(embeddings),
-                options.ToProto(parseResult, parseResult.GetValue(groups)),
-                options.Server(parseResult),
-                parseResult.GetValue(options.Output),
-                parseResult.GetValue(options.Csv));
-            return RunAsync(run, grouping, parseResult.InvocationConfiguration.Output, parseResult.InvocationConfiguration.Error, cancellationToken);
+            GroupingOptions request = options.ToProto(parseResult, parseResult.GetValue(groups));
+            saving.ApplyTo(parseResult, request);
+            return saving.RunAsync(parseResult, options.Server(parseResult), server =>
+            {
+                var run = new GroupRun(
+                    parseResult.GetRequiredValue(input),
+                    parseResult.GetValue(embeddings),
+                    request,
+                    server,
+                    parseResult.GetValue(options.Output),
+                    parseResult.GetValue(options.Csv));
+                return RunAsync(run, grouping, parseResult.InvocationConfiguration.Output, parseResult.InvocationConfiguration.Error, cancellationToken);
+            }, cancellationToken);
         });
         return command;
     }
@@ -98,6 +105,19 @@ internal static class GroupCommand
         }
 
         TextReport.Write(output, response);
+        if (response.Changes is not null)
+        {
+            output.WriteLine();
+            ChangeReportText.Write(output, response.Changes);
+        }
+
+        if (response.SavedGroupingName.Length > 0)
+        {
+            output.WriteLine();
+            output.WriteLine(
+                $"Saved as {response.SavedGroupingName}. Route new documents into it with: topicgroups route --grouping {SavedGroupingText.ShortName(response.SavedGroupingName)} --input FILE");
+        }
+
         return WriteFiles(run, response, error);
     }
 
