@@ -94,6 +94,7 @@ internal static class JsonResultWriter
         }
 
         json.WriteEndArray();
+        ChangeReportJson.Write(json, response);
         json.WriteEndObject();
     }
 

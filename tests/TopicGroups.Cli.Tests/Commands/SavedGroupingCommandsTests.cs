@@ -80,8 +80,12 @@ public sealed class SavedGroupingCommandsTests : IDisposable
         Assert.Contains("12 -> 0 (25.0% -> 0.0%)", fadedLine);
         Assert.Contains("helmet", fadedLine);
 
-        // Each continuing theme's documents carry last week's id for that theme.
+        // Each continuing theme's documents carry last week's id for that theme; the JSON holds the report too.
         using JsonDocument result = JsonDocument.Parse(File.ReadAllText(json));
+        JsonElement changes = result.RootElement.GetProperty("changes");
+        Assert.Equal("groupings/week-47", changes.GetProperty("reference").GetString());
+        Assert.Equal(["continued", "continued", "continued", "faded"], changes.GetProperty("themes").EnumerateArray().Select(t => t.GetProperty("kind").GetString()));
+        Assert.Equal(JsonValueKind.Null, result.RootElement.GetProperty("saved_grouping").ValueKind);
         var idOfKeywordThisWeek = GroupIdsByKeyword(result.RootElement);
         var idOfKeywordLastWeek = GroupIdsByKeyword(await GroupJson(lastWeek, "4"));
         foreach (string keyword in new[] { "dock", "deposit", "brake" })
