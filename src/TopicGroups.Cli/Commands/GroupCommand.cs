@@ -14,11 +14,15 @@ internal sealed record GroupRun(
     GroupingOptions Options,
     Uri? Server,
     string? JsonPath,
-    string? CsvPath);
+    string? CsvPath)
+{
+    /// <summary>Where to write the HTML report (--report); null for none. Asking for it asks the service for map coordinates.</summary>
+    public string? ReportPath { get; init; }
+}
 
 /// <summary>
-/// <c>group</c>: reads documents (JSONL, with embeddings inline or in a .npy), sends them to the
-/// service, prints the report and optionally writes JSON and CSV.
+/// <c>group</c>: reads documents (JSONL, with embeddings inline, in a .npy, or none: the service then embeds the
+/// texts), sends them to the service, prints the report and optionally writes JSON, CSV and an HTML report.
 /// </summary>
 internal static class GroupCommand
 {
@@ -26,7 +30,7 @@ internal static class GroupCommand
     {
         var input = new Option<string>("--input", "-i")
         {
-            Description = "JSONL file: one {\"id\", \"text\", \"embedding\"} object per line (\"embedding\" optional with --embeddings).",
+            Description = "JSONL file: one {\"id\", \"text\", \"embedding\"} object per line. Leave \"embedding\" out of every line to have the service embed the texts, or pass --embeddings.",
             Required = true,
         };
         var embeddings = new Option<string?>("--embeddings", "-e")
@@ -56,7 +60,10 @@ internal static class GroupCommand
                     request,
                     server,
                     parseResult.GetValue(options.Output),
-                    parseResult.GetValue(options.Csv));
+                    parseResult.GetValue(options.Csv))
+                {
+                    ReportPath = parseResult.GetValue(options.Report),
+                };
                 return RunAsync(run, grouping, parseResult.InvocationConfiguration.Output, parseResult.InvocationConfiguration.Error, cancellationToken);
             }, cancellationToken);
         });
@@ -66,9 +73,10 @@ internal static class GroupCommand
     public static async Task<int> RunAsync(GroupRun run, GroupingCall grouping, TextWriter output, TextWriter error, CancellationToken cancellationToken)
     {
         GroupDocumentsResponse response;
+        List<Document> documents;
         try
         {
-            List<Document> documents = ReadDocuments(run);
+            documents = ReadDocuments(run);
             GroupCountOption.CheckAgainst(run.Options, documents.Count, Path.GetFileName(run.InputPath));
 
             using ProgressLine? progress = ProgressLine.ForTerminal(error, documents.Count);
@@ -118,7 +126,7 @@ internal static class GroupCommand
                 $"Saved as {response.SavedGroupingName}. Route new documents into it with: topicgroups route --grouping {SavedGroupingText.ShortName(response.SavedGroupingName)} --input FILE");
         }
 
-        return WriteFiles(run, response, error);
+        return WriteFiles(run, response, documents, error);
     }
 
     /// <summary>Reads the JSONL and, when given, the .npy; each document ends up holding its own embedding.</summary>
@@ -180,7 +188,7 @@ internal static class GroupCommand
         return -1;
     }
 
-    private static int WriteFiles(GroupRun run, GroupDocumentsResponse response, TextWriter error)
+    private static int WriteFiles(GroupRun run, GroupDocumentsResponse response, IReadOnlyList<Document> documents, TextWriter error)
     {
         string? current = null;
         try
@@ -197,6 +205,13 @@ internal static class GroupCommand
                 current = run.CsvPath;
                 CsvAssignmentsWriter.Write(run.CsvPath, response);
                 error.WriteLine($"wrote {run.CsvPath} ({response.Documents.Count} rows)");
+            }
+
+            if (run.ReportPath is not null)
+            {
+                current = run.ReportPath;
+                HtmlReport.Write(run.ReportPath, response, documents, new HtmlReportSource(Path.GetFileName(run.InputPath), DateTimeOffset.UtcNow));
+                error.WriteLine($"wrote {Path.GetFullPath(run.ReportPath)} (HTML report: open it in a browser)");
             }
         }
         catch (Exception ex) when (ex is IOException or UnauthorizedAccessException)

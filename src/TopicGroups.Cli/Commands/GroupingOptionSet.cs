@@ -32,6 +32,11 @@ internal sealed class GroupingOptionSet
 
     public Option<string?> Csv { get; } = new("--csv") { Description = "Write one row per document (id,group,similarity,margin,outlier) to this CSV file." };
 
+    public Option<string?> Report { get; } = new("--report")
+    {
+        Description = "Write a self-contained HTML report (map of the documents, group sizes, terms, examples, quality, outliers) to this file.",
+    };
+
     public Option<string?> ServerAddress { get; } = new("--server") { Description = "Address of a running TopicGroups server (http://host:port). Default: run the service inside this process." };
 
     public void AddTo(Command command)
@@ -47,6 +52,7 @@ internal sealed class GroupingOptionSet
         command.Add(SilhouetteSample);
         command.Add(Output);
         command.Add(Csv);
+        command.Add(Report);
         command.Add(ServerAddress);
         GroupCommand.AddPositiveValidator(Restarts);
         GroupCommand.AddPositiveValidator(MaxIterations);
@@ -87,6 +93,7 @@ internal sealed class GroupingOptionSet
             TermCount = parseResult.GetValue(Terms),
             ExampleCount = parseResult.GetValue(Examples),
             IncludeBigrams = parseResult.GetValue(Bigrams),
+            IncludeMap = parseResult.GetValue(Report) is not null,   // the report draws the map
         };
         groups.ApplyTo(options);
         if (parseResult.GetValue(Seed) is ulong seed)

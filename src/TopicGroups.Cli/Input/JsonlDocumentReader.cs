@@ -6,13 +6,16 @@ namespace TopicGroups.Cli.Input;
 /// <summary>
 /// Reads documents from JSON Lines: one JSON object per line with "id" (string, unique),
 /// "text" (string) and, when embeddings come from the same file, "embedding" (array of numbers,
-/// the same length on every line). Other fields are ignored; blank lines are skipped.
+/// the same length on every line). Either every line has "embedding" or none has: a file of texts
+/// alone is embedded by the service. Other fields are ignored; blank lines are skipped.
 /// Every problem is an <see cref="InputException"/> naming the file and line.
 /// </summary>
 internal static class JsonlDocumentReader
 {
     /// <param name="path">The JSONL file.</param>
-    /// <param name="readEmbeddings">True: every line must carry "embedding". False: "embedding" is skipped if present.</param>
+    /// <param name="readEmbeddings">
+    /// True: "embedding" is read, and must be on every line or on none (texts only). False: "embedding" is skipped if present.
+    /// </param>
     public static JsonlDocuments Read(string path, bool readEmbeddings)
     {
         using FileStream stream = InputFiles.OpenRead(path);
@@ -26,6 +29,7 @@ internal static class JsonlDocumentReader
         var lineOfId = new Dictionary<string, int>(StringComparer.Ordinal);
         int dimensions = 0;
         int firstEmbeddingLine = 0;
+        int firstTextOnlyLine = 0;
 
         foreach ((int lineNumber, ReadOnlyMemory<byte> line) in LineSplitter.Lines(stream))
         {
@@ -42,8 +46,26 @@ internal static class JsonlDocumentReader
             }
 
             lineOfId.Add(document.Id, lineNumber);
-            if (readEmbeddings)
+            if (readEmbeddings && document.Embedding.Count == 0)
             {
+                if (dimensions > 0)
+                {
+                    throw new InputException(
+                        $"{fileName} line {lineNumber}: expected \"embedding\" (array of numbers) like line {firstEmbeddingLine}; give every line "
+                        + "an embedding, or none and the service embeds the texts, or pass the vectors with --embeddings FILE.npy");
+                }
+
+                firstTextOnlyLine = firstTextOnlyLine == 0 ? lineNumber : firstTextOnlyLine;
+            }
+            else if (readEmbeddings)
+            {
+                if (firstTextOnlyLine > 0)
+                {
+                    throw new InputException(
+                        $"{fileName} line {lineNumber}: has \"embedding\" but line {firstTextOnlyLine} has none; give every line an embedding, "
+                        + "or none and the service embeds the texts");
+                }
+
                 if (dimensions == 0)
                 {
                     dimensions = document.Embedding.Count;
@@ -75,7 +97,6 @@ internal static class JsonlDocumentReader
         string? id = null;
         string? text = null;
         Document document = new();
-        bool sawEmbedding = false;
         try
         {
             if (!reader.Read() || reader.TokenType != JsonTokenType.StartObject)
@@ -98,7 +119,6 @@ internal static class JsonlDocumentReader
                     document.Embedding.Clear();
                     document.Embedding.Capacity = Math.Max(document.Embedding.Capacity, expectedDimensions); // one allocation once the length is known
                     ReadEmbedding(ref reader, where, document);
-                    sawEmbedding = true;
                 }
                 else
                 {
@@ -130,11 +150,6 @@ internal static class JsonlDocumentReader
         if (text is null)
         {
             throw new InputException($"{where}: expected a JSON object with \"text\" (string)");
-        }
-
-        if (readEmbeddings && !sawEmbedding)
-        {
-            throw new InputException($"{where}: expected \"embedding\" (array of numbers), or pass the vectors with --embeddings FILE.npy");
         }
 
         document.Id = id;

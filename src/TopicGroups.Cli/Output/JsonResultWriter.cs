@@ -163,6 +163,18 @@ internal static class JsonResultWriter
         json.WriteNumber("restart_count", statistics.RestartCount);
         json.WriteNumber("seconds", statistics.Seconds);
         json.WriteNumber("seeding_seconds", statistics.SeedingSeconds);
+        // The model that made the vectors when the service embedded the texts; null when they came with the input.
+        if (statistics.EmbeddingModel.Length > 0)
+        {
+            json.WriteString("embedding_model", statistics.EmbeddingModel);
+            json.WriteNumber("embedding_seconds", statistics.EmbeddingSeconds);
+            json.WriteNumber("truncated_text_count", statistics.TruncatedTextCount);
+        }
+        else
+        {
+            json.WriteNull("embedding_model");
+        }
+
         json.WriteEndObject();
     }
 

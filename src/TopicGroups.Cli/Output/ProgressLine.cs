@@ -41,6 +41,8 @@ internal sealed class ProgressLine : IProgress<GroupingProgress>, IProgress<(int
         GroupingStage.Refining => string.Create(CultureInfo.InvariantCulture,
             $"refining: restart {progress.Restart + 1}, iteration {progress.Iteration}, objective {progress.Objective:F4}"),
         GroupingStage.Describing => "describing groups (terms, examples, outliers)",
+        GroupingStage.Embedding => string.Create(CultureInfo.InvariantCulture,
+            $"the service is embedding the texts: {progress.DocumentsEmbedded:N0} of {progress.DocumentsToEmbed:N0}"),
         GroupingStage.ChoosingGroupCount => string.Create(CultureInfo.InvariantCulture,
             $"choosing the number of groups: {progress.Iteration} groups scored, silhouette {progress.Objective:F3}"),
         _ => "working",

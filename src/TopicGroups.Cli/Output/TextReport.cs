@@ -25,6 +25,11 @@ internal static class TextReport
         int documentCount = statistics.DocumentCount > 0 ? statistics.DocumentCount : response.Documents.Count;
 
         writer.WriteLine(Header(response, statistics, documentCount));
+        if (EmbeddingLine(statistics) is string embedding)
+        {
+            writer.WriteLine(embedding);
+        }
+
         if (response.GroupCountChoice is { } choice)
         {
             writer.WriteLine();
@@ -78,6 +83,21 @@ internal static class TextReport
         return string.Create(Invariant,
             $"NO CLEAR STRUCTURE: mean silhouette {quality.Silhouette:F3} is below {quality.NoStructureThreshold:F3}. These documents do not "
             + $"fall into distinct themes; the groups below are arbitrary cuts. Read the terms and examples with that in mind.");
+    }
+
+    /// <summary>When the service embedded the texts: which model, how long, and how many texts were cut to its window.</summary>
+    internal static string? EmbeddingLine(RunStatistics statistics)
+    {
+        if (statistics.EmbeddingModel.Length == 0)
+        {
+            return null;
+        }
+
+        string line = string.Create(Invariant, $"Texts embedded by the service with {statistics.EmbeddingModel} in {statistics.EmbeddingSeconds:F1} s");
+        return statistics.TruncatedTextCount == 0
+            ? line + "."
+            : line + string.Create(Invariant,
+                $"; {Count(statistics.TruncatedTextCount, "text")} {(statistics.TruncatedTextCount == 1 ? "was" : "were")} longer than its window of 512 word pieces, so only the beginning counts.");
     }
 
     internal static string Header(GroupDocumentsResponse response, RunStatistics statistics, int documentCount)

@@ -13,17 +13,33 @@ public sealed class DemoCommandTests : IDisposable
     public async Task Demo_BundledFiles_EveryTicketSentWithItsOwn384ValueRowAndTwelveGroups()
     {
         var fake = new FakeGrouping();
+        string report = _directory.File("demo-report.html");
 
-        var (exitCode, output, error) = await CliRun.RunAsync(fake.Call, "demo");
+        var (exitCode, output, error) = await CliRun.RunAsync(fake.Call, "demo", "--report", report);
 
         Assert.True(exitCode == ExitCodes.Success, error);
         Assert.Equal(DemoCommand.DefaultGroupCount, fake.Options!.GroupCount);
+        Assert.True(fake.Options.IncludeMap, "the demo's report needs the map");
+        Assert.True(File.Exists(report), "the demo writes its HTML report");
+        Assert.Contains($"wrote {report} (HTML report", error);
         string[] lines = File.ReadLines(Path.Combine(AppContext.BaseDirectory, "demo", "tickets.jsonl")).Where(l => l.Trim().Length > 0).ToArray();
         Assert.Equal(lines.Length, fake.Documents!.Count);
         Assert.All(fake.Documents, d => Assert.Equal(384, d.Embedding.Count));
         // The .npy was made by `embed` from these texts: MiniLM rows have unit length.
         Assert.All(fake.Documents, d => Assert.InRange(MathF.Sqrt(d.Embedding.Sum(v => v * v)), 0.999f, 1.001f));
         Assert.Contains("Demo: ", output);
+    }
+
+    [Fact]
+    public async Task Demo_NoReport_NoFileAndNoMapAsked()
+    {
+        var fake = new FakeGrouping();
+
+        var (exitCode, _, error) = await CliRun.RunAsync(fake.Call, "demo", "--no-report");
+
+        Assert.True(exitCode == ExitCodes.Success, error);
+        Assert.False(fake.Options!.IncludeMap);
+        Assert.DoesNotContain("HTML report", error);
     }
 
     [Fact]

@@ -113,7 +113,7 @@ public sealed class GroupCommandEndToEndTests : IDisposable
     {
         string json = _directory.File("demo.json");
 
-        var (exitCode, output, error) = await CliRun.RunAsync(ServiceGrouping.RunAsync, "demo", "--output", json);
+        var (exitCode, output, error) = await CliRun.RunAsync(ServiceGrouping.RunAsync, "demo", "--output", json, "--no-report");
 
         Assert.True(exitCode == ExitCodes.Success, error);
         using JsonDocument result = JsonDocument.Parse(File.ReadAllBytes(json));

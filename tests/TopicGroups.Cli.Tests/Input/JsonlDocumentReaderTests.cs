@@ -62,7 +62,7 @@ public sealed class JsonlDocumentReaderTests : IDisposable
     [InlineData("{\"id\": \"\", \"text\": \"x\", \"embedding\": [1]}", "t.jsonl line 2: \"id\" is empty; give every document a unique, non-empty id")]
     [InlineData("{\"id\": \"b\", \"embedding\": [1]}", "t.jsonl line 2: expected a JSON object with \"text\" (string)")]
     [InlineData("{\"id\": \"b\", \"text\": null, \"embedding\": [1]}", "t.jsonl line 2: \"text\" must be a string, found null")]
-    [InlineData("{\"id\": \"b\", \"text\": \"x\"}", "t.jsonl line 2: expected \"embedding\" (array of numbers), or pass the vectors with --embeddings FILE.npy")]
+    [InlineData("{\"id\": \"b\", \"text\": \"x\"}", "t.jsonl line 2: expected \"embedding\" (array of numbers) like line 1; give every line an embedding, or none and the service embeds the texts, or pass the vectors with --embeddings FILE.npy")]
     [InlineData("{\"id\": \"b\", \"text\": \"x\", \"embedding\": [1, \"2\"]}", "t.jsonl line 2: \"embedding\" item 1 must be a number, found a string")]
     [InlineData("{\"id\": \"b\", \"text\": \"x\", \"embedding\": \"1,2\"}", "t.jsonl line 2: \"embedding\" must be an array of numbers, found a string")]
     [InlineData("{\"id\": \"b\", \"text\": \"x\", \"embedding\": [1, 2]}", "t.jsonl line 2: \"embedding\" has 2 numbers but line 1 has 1; every document needs the same length")]
@@ -77,6 +77,30 @@ public sealed class JsonlDocumentReaderTests : IDisposable
         var ex = Assert.Throws<InputException>(() => JsonlDocumentReader.Read(path, readEmbeddings: true));
 
         Assert.Equal(expected, ex.Message);
+    }
+
+    [Fact]
+    public void Read_TextsOnlyFile_DocumentsWithoutEmbeddings()
+    {
+        string path = _directory.WriteText("texts.jsonl", "{\"id\": \"a\", \"text\": \"Refund please\"}\n\n{\"id\": \"b\", \"text\": \"Where is my parcel?\"}\n");
+
+        JsonlDocuments read = JsonlDocumentReader.Read(path, readEmbeddings: true);
+
+        Assert.Equal(["a", "b"], read.Documents.Select(d => d.Id));
+        Assert.All(read.Documents, d => Assert.Empty(d.Embedding));
+        Assert.Equal(0, read.Dimensions);
+        Assert.Equal([1, 3], read.LineNumbers);
+    }
+
+    [Fact]
+    public void Read_TextsOnlyThenAnEmbedding_ErrorNamesBothLines()
+    {
+        string path = _directory.WriteText("t.jsonl",
+            "{\"id\": \"a\", \"text\": \"x\"}\n{\"id\": \"b\", \"text\": \"y\"}\n{\"id\": \"c\", \"text\": \"z\", \"embedding\": [1, 2]}\n");
+
+        var ex = Assert.Throws<InputException>(() => JsonlDocumentReader.Read(path, readEmbeddings: true));
+
+        Assert.Equal("t.jsonl line 3: has \"embedding\" but line 1 has none; give every line an embedding, or none and the service embeds the texts", ex.Message);
     }
 
     [Fact]
