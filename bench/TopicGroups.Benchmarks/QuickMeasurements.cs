@@ -140,6 +140,7 @@ internal static class QuickMeasurements
                     SeedOnEveryRow = variant.Contains("all"),
                     SeedCandidates = variant.Contains("plain") ? 1 : 0,
                     DisablePruning = variant.Contains("noprune"),
+                    SeedingSampleRowsPerGroup = variant.Contains("per") ? int.Parse(variant[(variant.IndexOf("per") + 3)..].Split('-')[0]) : SeedingPool.SampleRowsPerGroup,
                 };
                 options = StudyOptions(options, variant);
                 process.Refresh();

@@ -22,7 +22,8 @@ internal sealed record BenchRun(
     ulong Seed,
     int RestartCount,
     int Threads,
-    bool ThroughService);
+    bool ThroughService,
+    int MiniBatchSize = 0);
 
 /// <summary>
 /// <c>bench</c>: times the grouping of one .npy matrix and prints one JSON line. By default it runs the
@@ -63,6 +64,10 @@ internal static class BenchCommand
             Description = "Threads for the Core. Default: every core.",
             DefaultValueFactory = _ => Environment.ProcessorCount,
         };
+        var miniBatch = new Option<int>("--mini-batch")
+        {
+            Description = "Refine by mini-batches of this many rows (Sculley, 2010): --iterations then counts batches. Default: 0 (every iteration uses every row). In-process only.",
+        };
         var throughService = new Option<bool>("--through-service")
         {
             Description = "Also send the batch through the gRPC service hosted in this process and report in-process against end-to-end seconds.",
@@ -70,11 +75,18 @@ internal static class BenchCommand
 
         var command = new Command("bench", "Time the grouping of a .npy matrix and print one JSON line (seconds, objective, peak memory).")
         {
-            embeddings, groups, iterations, seed, restarts, threads, throughService,
+            embeddings, groups, iterations, seed, restarts, threads, miniBatch, throughService,
         };
         GroupCommand.AddPositiveValidator(groups);
         GroupCommand.AddPositiveValidator(restarts);
         GroupCommand.AddPositiveValidator(threads);
+        miniBatch.Validators.Add(result =>
+        {
+            if (result.Tokens.Count > 0 && result.GetValueOrDefault<int>() < 0)
+            {
+                result.AddError($"--mini-batch must be 0 (off) or a positive number of rows (got {result.GetValueOrDefault<int>()})");
+            }
+        });
         iterations.Validators.Add(result =>
         {
             if (result.Tokens.Count > 0 && result.GetValueOrDefault<int?>() < 1)
@@ -92,7 +104,8 @@ internal static class BenchCommand
                 parseResult.GetValue(seed),
                 parseResult.GetValue(restarts),
                 parseResult.GetValue(threads),
-                parseResult.GetValue(throughService));
+                parseResult.GetValue(throughService),
+                parseResult.GetValue(miniBatch));
             return RunAsync(run, parseResult.InvocationConfiguration.Output, parseResult.InvocationConfiguration.Error, cancellationToken);
         });
         return command;
@@ -133,8 +146,14 @@ internal static class BenchCommand
                 ["restarts"] = run.RestartCount,
                 ["threads"] = run.Threads,
                 ["iterations_requested"] = run.Iterations,
+                ["mini_batch"] = run.MiniBatchSize,
                 ["read_seconds"] = Round(readSeconds),
             };
+
+            if (run.ThroughService && run.MiniBatchSize > 0)
+            {
+                throw new InputException("--mini-batch is an in-process option (the service has no such setting); drop --through-service or --mini-batch");
+            }
 
             if (run.ThroughService)
             {
@@ -296,6 +315,7 @@ internal static class BenchCommand
             GroupCount = Math.Min(run.GroupCount, rows),
             MaxIterations = 2,
             RestartCount = 1,
+            MiniBatchSize = Math.Min(run.MiniBatchSize, rows),
         };
         ClusteringResult result = SphericalKMeans.Fit(slice, options, progress: null, cancellationToken);
         NearestCentroid.Assign(slice, result.Centroids, maxDegreeOfParallelism: run.Threads);
@@ -310,6 +330,7 @@ internal static class BenchCommand
         MaxIterations = run.Iterations ?? SphericalKMeansDefaults.MaxIterations,
         RunAllIterations = run.Iterations is not null,
         MaxDegreeOfParallelism = run.Threads,
+        MiniBatchSize = run.MiniBatchSize,
     };
 
     /// <summary>The Core options the service maps <see cref="ProtoOptions"/> to (the service has no "exactly I iterations" switch: I is a cap there).</summary>

@@ -8,7 +8,7 @@ namespace TopicGroups.Core.Clustering;
 /// </summary>
 internal sealed class ClusteringWorkspace
 {
-    public ClusteringWorkspace(EmbeddingMatrix unitRows, int groupCount, int workerCount, bool sampleForSeeding, int seedCandidates, bool pruning = true)
+    public ClusteringWorkspace(EmbeddingMatrix unitRows, int groupCount, int workerCount, bool sampleForSeeding, int seedCandidates, bool pruning = true, int sampleRowsPerGroup = SeedingPool.SampleRowsPerGroup)
     {
         Rows = unitRows.Values;
         N = unitRows.Rows;
@@ -38,7 +38,7 @@ internal sealed class ClusteringWorkspace
 
         Bounds = pruning ? new AssignmentBounds(N, D, K, workerCount, Blocks.Count) : null;
 
-        Seeding = new SeedingPool(Rows, N, D, K, workerCount, sampleForSeeding, seedCandidates);
+        Seeding = new SeedingPool(Rows, N, D, K, workerCount, sampleForSeeding, seedCandidates, sampleRowsPerGroup);
     }
 
     public float[] Rows { get; }

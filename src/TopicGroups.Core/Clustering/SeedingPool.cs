@@ -4,20 +4,21 @@ namespace TopicGroups.Core.Clustering;
 
 /// <summary>
 /// The rows k-means++ draws its seeds from: every row, or, for large inputs, a uniform sample of
-/// SampleSize(n, k) rows drawn afresh for each restart from that restart's generator. Seeding costs k
-/// passes over its pool and each pass is memory-bound (one row read per dot product), so at 100,000 × 384
-/// with k = 100 the whole-data version reads 15 GB; on the 25,600-row sample it reads 4 GB. Lloyd
-/// iterations then run on every row, which recovers what a sample can miss. Measured with
-/// `bench … -- seeding` (clustered synthetic rows, 20 iterations): at 100,000 × 384, k = 100 seeding took
-/// 0.6–0.8 s instead of 1.9–2.9 s and the final objective was higher for all 3 seeds (by 0.0005–0.001);
-/// at 20,000 × 384, k = 32 the mean over 8 seeds was 0.0022 lower, inside the seed-to-seed spread of 0.007.
-/// (k-means++ on a sample is common practice without a single source; faiss likewise trains on at most
-/// 256 rows per centroid by default.)
+/// SampleSize(n, k) = max(8192, 128 × k) rows drawn afresh for each restart from that restart's generator.
+/// Each greedy k-means++ step scores the whole pool against its candidates, so seeding costs about k passes
+/// over the pool; Lloyd iterations then run on every row, which recovers what a sample can miss. Measured with
+/// `bench … -- study` (greedy seeding, 20 iterations, final reassigned objective, median over seeds) on the
+/// peers' data: at 100,000 × 384, k = 100, a pool of 256 × k rows gave 0.5801 (10 seeds) and 1.3 s of seeding on
+/// a loaded machine, a pool of 8,192 rows 0.5810 and 0.28 s; on the harder variant 0.4804 against 0.4811; at
+/// 300,000 × 768, k = 200 (3 seeds, within seed-to-seed spread) 256 × k rows gave 0.5832, 128 × k 0.5816 and
+/// 64 × k 0.5815, with seeding 6.4, 2.1 and 2.0 s. The pool copy is 128 × k × d floats (79 MB at k = 200,
+/// d = 768). (k-means++ on a sample is common practice without a single source; faiss likewise trains on at
+/// most 256 rows per centroid by default.)
 /// </summary>
 internal sealed class SeedingPool
 {
-    /// <summary>Pool rows per group when sampling: 256 × k, never fewer than <see cref="MinimumSample"/>.</summary>
-    public const int SampleRowsPerGroup = 256;
+    /// <summary>Pool rows per group when sampling: 128 × k, never fewer than <see cref="MinimumSample"/>.</summary>
+    public const int SampleRowsPerGroup = 128;
 
     public const int MinimumSample = 8192;
 
@@ -26,12 +27,12 @@ internal sealed class SeedingPool
     private readonly int _totalRows;
     private readonly CentroidPanel?[] _panels;
 
-    public SeedingPool(float[] allRows, int n, int d, int k, int workerCount, bool sample, int maxCandidates)
+    public SeedingPool(float[] allRows, int n, int d, int k, int workerCount, bool sample, int maxCandidates, int sampleRowsPerGroup = SampleRowsPerGroup)
     {
         _allRows = allRows;
         _totalRows = n;
         D = d;
-        N = sample ? SampleSize(n, k) : n;
+        N = sample ? SampleSize(n, k, sampleRowsPerGroup) : n;
         IsSampled = N < n;
         if (IsSampled)
         {
@@ -58,7 +59,7 @@ internal sealed class SeedingPool
         _panels = new CentroidPanel?[maxCandidates + 1];
     }
 
-    public static int SampleSize(int n, int k) => (int)Math.Min(n, Math.Max(MinimumSample, (long)SampleRowsPerGroup * k));
+    public static int SampleSize(int n, int k, int rowsPerGroup = SampleRowsPerGroup) => (int)Math.Min(n, Math.Max(MinimumSample, (long)rowsPerGroup * k));
 
     public bool IsSampled { get; }
 

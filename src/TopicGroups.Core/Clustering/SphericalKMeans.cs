@@ -13,8 +13,8 @@ public static class SphericalKMeans
     /// Clusters unit-length rows. The rows must already be normalised (see RowNormalisation).
     /// Each restart seeds with k-means++ from its own generator (SplitMix64 stream r of Seed) and
     /// refines with Lloyd iterations; the restart with the highest objective is kept (the earliest on a tie).
-    /// Above max(8192, 256 × GroupCount) rows the seeds are drawn from a uniform sample of that many rows
-    /// (see SeedingPool); the iterations always use every row.
+    /// Above max(8192, 128 × GroupCount) rows the seeds are drawn from a uniform sample of that many rows
+    /// (see SeedingPool); the iterations always use every row, except with MiniBatchSize (see MiniBatchRefinement).
     /// </summary>
     /// <exception cref="ArgumentException">An option is out of range; the message names it.</exception>
     /// <exception cref="OperationCanceledException">The token was cancelled (checked between iterations and between seeds).</exception>
@@ -39,7 +39,7 @@ public static class SphericalKMeans
         int d = unitRows.Dimensions;
         int k = options.GroupCount;
         int seedCandidates = options.ResolveSeedCandidates();
-        var ws = new ClusteringWorkspace(unitRows, k, options.ResolveWorkerCount(), !options.SeedOnEveryRow, seedCandidates, options.ResolvePruning());
+        var ws = new ClusteringWorkspace(unitRows, k, options.ResolveWorkerCount(), !options.SeedOnEveryRow, seedCandidates, options.ResolvePruning(), options.SeedingSampleRowsPerGroup);
 
         // The kept run, copied out of the workspace whenever a restart beats it.
         float[] keptCentroids = new float[k * d];
@@ -80,7 +80,9 @@ public static class SphericalKMeans
                 previousObjective = ws.Seeding.IsSampled ? double.NegativeInfinity : seedingObjective;
             }
 
-            (double objective, bool converged) = Refine(ws, options, restart, previousObjective, history, progress, cancellationToken);
+            (double objective, bool converged) = options.MiniBatchSize > 0
+                ? (MiniBatchRefinement.Refine(ws, options, restart, ref random, history, progress, cancellationToken), false)
+                : Refine(ws, options, restart, previousObjective, history, progress, cancellationToken);
             restartObjectives[restart] = objective;
 
             if (objective > keptObjective)

@@ -44,8 +44,17 @@ public sealed record SphericalKMeansOptions
     public int MaxDegreeOfParallelism { get; init; } = -1;
 
     /// <summary>
+    /// When positive, refine by mini-batches (Sculley, 2010): each of MaxIterations steps assigns this many randomly
+    /// drawn rows and moves their centroids toward them, then one full pass assigns every row. Faster than full
+    /// iterations on very large batches, at some cost in objective (see docs/performance.md for measured figures).
+    /// Convergence is not tested: every run takes exactly MaxIterations steps.
+    /// </summary>
+    /// <value>The default is 0: every iteration uses every row.</value>
+    public int MiniBatchSize { get; init; }
+
+    /// <summary>
     /// When set, k-means++ draws from every row even for large inputs instead of a per-restart sample of
-    /// max(8192, 256 × GroupCount) rows (for comparisons and benchmarks).
+    /// max(8192, 128 × GroupCount) rows (for comparisons and benchmarks).
     /// </summary>
     internal bool SeedOnEveryRow { get; init; }
 
@@ -68,6 +77,9 @@ public sealed record SphericalKMeansOptions
     /// cheap there and the bounds' own work is not).
     /// </summary>
     internal const int PruningMinimumGroups = 64;
+
+    /// <summary>Seeding sample rows per group (see SeedingPool); for comparisons and benchmarks.</summary>
+    internal int SeedingSampleRowsPerGroup { get; init; } = SeedingPool.SampleRowsPerGroup;
 
     internal bool ResolvePruning() => !DisablePruning && (ForcePruning || GroupCount >= PruningMinimumGroups);
 
@@ -102,6 +114,12 @@ public sealed record SphericalKMeansOptions
             throw new ArgumentException(
                 $"MaxDegreeOfParallelism is {MaxDegreeOfParallelism}; use -1 for all cores or a positive thread count.",
                 nameof(MaxDegreeOfParallelism));
+        }
+
+        if (MiniBatchSize < 0)
+        {
+            throw new ArgumentException(
+                $"MiniBatchSize is {MiniBatchSize}; use 0 for full iterations or a positive number of rows per step.", nameof(MiniBatchSize));
         }
 
         if (!(ConvergenceTolerance >= 0))
