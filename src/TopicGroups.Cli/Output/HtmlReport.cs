@@ -235,9 +235,9 @@ internal static class HtmlReport
             double share = report.DocumentCount > 0 ? 100.0 * group.Size / report.DocumentCount : 0;
             string terms = HtmlText.Shorten(report.Terms(display, TermsInLabel), 34);
             html.Append(Invariant, $"<a href=\"#group-{group.Id}\"><title>{HtmlText.Encode(report.Label(display))}: {group.Size:N0} documents</title>")
-                .Append(Invariant, $"<use href=\"#shape-{ReportPalette.ShapeIndex(display)}\" class=\"c{ReportPalette.ColourIndex(display)} mk\" x=\"8\" y=\"{y + 12}\"/>")
+                .Append(Invariant, $"<use href=\"#shape-{ReportPalette.ShapeIndex(display)}\" class=\"c{ReportPalette.ColourIndex(display)} mk\" transform=\"translate(9 {y + 11}) scale(1.5)\"/>")
                 .Append(Invariant, $"<text class=\"label\" x=\"20\" y=\"{y + 16}\" font-size=\"14\"><tspan font-weight=\"600\">{HtmlText.Encode(report.Label(display))}</tspan>")
-                .Append(Invariant, $"<tspan x=\"96\" fill=\"#5b636b\">{HtmlText.Encode(terms)}</tspan></text>")
+                .Append(Invariant, $"<tspan x=\"108\" fill=\"#5b636b\">{HtmlText.Encode(terms)}</tspan></text>")
                 .Append(Invariant, $"<rect class=\"bar c{ReportPalette.ColourIndex(display)}\" x=\"{labelWidth}\" y=\"{y + 4}\" width=\"{barLength:F1}\" height=\"{rowHeight - 12}\" rx=\"2\"/>")
                 .Append(Invariant, $"<text x=\"{labelWidth + barLength + 8:F1}\" y=\"{y + 16}\" font-size=\"13\">{group.Size:N0} ({share:F1}%)</text></a>\n");
         }

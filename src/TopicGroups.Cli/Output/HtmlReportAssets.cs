@@ -38,6 +38,7 @@ internal static class HtmlReportAssets
         .bars a text{fill:var(--ink)}
         .bars a:hover text.label,.bars a:focus text.label{text-decoration:underline}
         .bars .bar{opacity:.85}
+        .bars .mk{stroke:rgba(0,0,0,.45);stroke-width:.6}
         .map-wrap{display:grid;grid-template-columns:minmax(0,2.1fr) minmax(240px,1fr);gap:18px;align-items:start}
         @media (max-width:860px){.map-wrap{grid-template-columns:1fr}}
         .map{width:100%;height:auto;border:1px solid var(--rule);border-radius:6px;background:#fff;touch-action:manipulation}
