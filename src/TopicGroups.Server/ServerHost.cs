@@ -72,6 +72,11 @@ public static class ServerHost
         services.AddMetrics();
 
         services.AddSingleton<GroupingPipeline>();
+        services.AddOptions<GroupingAdmissionOptions>()
+            .BindConfiguration(GroupingAdmissionOptions.SectionName)
+            .PostConfigure(admission => admission.Validate())
+            .ValidateOnStart();
+        services.AddSingleton<GroupingAdmission>();
         services.AddSingleton<GroupingRunner>();
         services.AddOptions<TextEmbeddingOptions>()
             .BindConfiguration(TextEmbeddingOptions.SectionName)

@@ -15,11 +15,13 @@ internal sealed class GroupingRunner
     public const string ActiveRunsInstrument = "topicgroups.grouping.active_runs";
 
     private readonly GroupingPipeline _pipeline;
+    private readonly GroupingAdmission _admission;
     private readonly UpDownCounter<int> _activeRuns;
 
-    public GroupingRunner(GroupingPipeline pipeline, IMeterFactory meterFactory)
+    public GroupingRunner(GroupingPipeline pipeline, GroupingAdmission admission, IMeterFactory meterFactory)
     {
         _pipeline = pipeline;
+        _admission = admission;
         Meter meter = meterFactory.Create(MeterName);
         _activeRuns = meter.CreateUpDownCounter<int>(
             ActiveRunsInstrument,
@@ -40,9 +42,13 @@ internal sealed class GroupingRunner
         Action<int, int>? embeddingProgress = null)
     {
         CancellationToken cancellationToken = context.CancellationToken;
-        _activeRuns.Add(1);
+        IDisposable? lease = null;
         try
         {
+            // Memory estimate, then a slot: RESOURCE_EXHAUSTED (with RetryInfo when only busy) before any work starts.
+            lease = await _admission.EnterAsync(input, context);
+            _activeRuns.Add(1);
+
             // A dedicated thread, not a pool thread: a run lasts seconds to minutes, and its parallel loops then
             // queue their work to the pool's global queue behind timers and I/O callbacks instead of ahead of
             // them. Run from a pool thread, a long run was seen to hold back deadline timers for minutes.
@@ -72,7 +78,11 @@ internal sealed class GroupingRunner
         }
         finally
         {
-            _activeRuns.Add(-1);
+            if (lease is not null)
+            {
+                _activeRuns.Add(-1);
+                lease.Dispose();
+            }
         }
     }
 }
