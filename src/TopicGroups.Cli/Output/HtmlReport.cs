@@ -412,8 +412,9 @@ internal static class HtmlReport
         const double width = 720, height = 240, left = 48, right = 16, top = 14, bottom = 34;
         GroupCountCandidate[] candidates = choice.Candidates.OrderBy(c => c.GroupCount).ToArray();
         int minCount = candidates[0].GroupCount, maxCount = candidates[^1].GroupCount;
-        double low = Math.Min(0, candidates.Min(c => c.Silhouette)), high = Math.Max(candidates.Max(c => c.Silhouette), 0.05);
-        double X(int count) => left + (maxCount == minCount ? 0.5 : (double)(count - minCount) / (maxCount - minCount)) * (width - left - right);
+        double low = Math.Min(0, candidates.Min(c => c.Silhouette)), high = Math.Max(candidates.Max(c => c.Silhouette), 0.05) * 1.15;
+        const double inset = 14;   // keeps the end points clear of the axis labels
+        double X(int count) => left + inset + (maxCount == minCount ? 0.5 : (double)(count - minCount) / (maxCount - minCount)) * (width - left - right - 2 * inset);
         double Y(double value) => top + (high - value) / (high - low) * (height - top - bottom);
 
         html.Append(Invariant, $"<svg class=\"curve\" viewBox=\"0 0 {width} {height}\" role=\"img\" aria-label=\"Mean silhouette for each number of groups tried\">\n");
@@ -460,7 +461,7 @@ internal static class HtmlReport
             string name = report.DisplayOfId.TryGetValue(theme.GroupId, out int display) && theme.Kind != ThemeChangeKind.Faded
                 ? string.Create(Invariant, $"{Mark(display)}<a href=\"#group-{theme.GroupId}\">Group {theme.GroupId}</a>")
                 : string.Create(Invariant, $"Group {theme.GroupId}");
-            html.Append("<tr><td>").Append(name).Append("</td><td>").Append(HtmlText.Encode(status)).Append("</td>")
+            html.Append("<tr><td class=\"nowrap\">").Append(name).Append("</td><td>").Append(HtmlText.Encode(status)).Append("</td>")
                 .Append(Invariant, $"<td class=\"num\">{theme.SizeThen:N0}</td><td class=\"num\">{theme.SizeNow:N0}</td>")
                 .Append(Invariant, $"<td class=\"num {(change > 0 ? "change-up" : change < 0 ? "change-down" : "")}\">{(change > 0 ? "+" : "")}{change:N0}</td><td>")
                 .Append(HtmlText.Encode(string.Join(", ", theme.Terms.Take(5))));
@@ -503,7 +504,7 @@ internal static class HtmlReport
             DocumentPlacement placement = response.Documents[i];
             int display = report.DisplayOfPlacement(placement);
             html.Append("<tr><td>").Append(HtmlText.Encode(placement.DocumentId)).Append("</td>")
-                .Append(Invariant, $"<td>{Mark(display)}<a href=\"#group-{placement.GroupId}\">{placement.GroupId}</a></td>")
+                .Append(Invariant, $"<td class=\"nowrap\">{Mark(display)}<a href=\"#group-{placement.GroupId}\">{placement.GroupId}</a></td>")
                 .Append(Invariant, $"<td class=\"num\">{placement.Similarity:F2}</td><td class=\"num\">{report.Group(display).Cohesion:F2}</td>")
                 .Append("<td class=\"text\">").Append(HtmlText.Encode(HtmlText.Shorten(report.Documents[i].Text, OutlierTextLength))).Append("</td></tr>\n");
         }

@@ -71,6 +71,7 @@ internal static class HtmlReportAssets
         th,td{text-align:left;vertical-align:top;padding:4px 8px 4px 0;border-bottom:1px solid #edf0f2}
         th{font-size:.8rem;text-transform:uppercase;letter-spacing:.03em;color:var(--muted);font-weight:600}
         td.num,th.num{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}
+        td.nowrap{white-space:nowrap}
         .terms td{padding-top:2px;padding-bottom:2px}
         .wbar{display:inline-block;height:9px;background:#8aa4bf;border-radius:2px;vertical-align:middle}
         .examples{margin:0;padding:0;list-style:none}
@@ -93,7 +94,8 @@ internal static class HtmlReportAssets
         @media print{
           body{font-size:10.5pt}
           main,.top,footer{max-width:none;padding:0}
-          nav.contents,.panel,.legend,.no-print{display:none!important}
+          nav.contents,.panel,.no-print{display:none!important}
+          .legend button{border:0;padding:0 8px 0 0;background:none}
           .print-only{display:block}
           .map-wrap{display:block}
           .map{max-height:15cm}

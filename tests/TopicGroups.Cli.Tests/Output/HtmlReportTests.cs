@@ -203,7 +203,7 @@ public sealed class HtmlReportTests
         Assert.Contains("the saved grouping \u201clast-week\u201d", html);
         Assert.Contains("<span class=\"badge continued\">continued: 3 \u2192 5</span>", html);
         Assert.Contains("<span class=\"badge new\">new theme</span>", html);
-        Assert.Contains("<td>Group 7</td><td>faded</td>", html);
+        Assert.Contains("<td class=\"nowrap\">Group 7</td><td>faded</td>", html);
         Assert.Contains("new among its terms: late", html);
         Assert.Contains("<a href=\"#changes\">Changes</a>", html);
     }
