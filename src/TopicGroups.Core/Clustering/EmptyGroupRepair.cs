@@ -9,6 +9,7 @@ namespace TopicGroups.Core.Clustering;
 internal static class EmptyGroupRepair
 {
     /// <summary>Repairs empty groups in ascending order; returns how many rows were moved. Ties go to the lower row index.</summary>
+    [System.Runtime.CompilerServices.MethodImpl(System.Runtime.CompilerServices.MethodImplOptions.AggressiveOptimization)]
     public static int Repair(ClusteringWorkspace ws)
     {
         int[] sizes = ws.GroupSizes;

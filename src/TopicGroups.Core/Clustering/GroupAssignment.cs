@@ -1,4 +1,3 @@
-using System.Numerics.Tensors;
 using System.Runtime.CompilerServices;
 using TopicGroups.Core.Vectors;
 
@@ -291,7 +290,7 @@ internal static class GroupAssignment
             {
                 int c = nearHere[t];
                 int slot = bounds.JumperSlot[c];
-                float score = slot >= 0 ? jumperRow[slot] : TensorPrimitives.Dot(row, ws.Centroids.AsSpan(c * d, d));
+                float score = slot >= 0 ? jumperRow[slot] : DotProduct.Dot(row, ws.Centroids.AsSpan(c * d, d));
                 Rank(c, score, ref best, ref bestScore, ref second, ref secondScore);
             }
 

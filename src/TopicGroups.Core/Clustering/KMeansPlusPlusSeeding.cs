@@ -1,5 +1,4 @@
 using System.Runtime.CompilerServices;
-using System.Numerics.Tensors;
 using TopicGroups.Core.Vectors;
 
 namespace TopicGroups.Core.Clustering;
@@ -189,7 +188,7 @@ internal static class KMeansPlusPlusSeeding
         for (int i = start; i < end; i++)
         {
             // Clamped at 0: rounding can put a cosine a hair above 1. A seed's own distance is exactly 0, so it is never drawn again.
-            float distance = pool.IsSeed[i] ? 0f : MathF.Max(0f, 1f - TensorPrimitives.Dot(pool.Row(i), seed));
+            float distance = pool.IsSeed[i] ? 0f : MathF.Max(0f, 1f - DotProduct.Dot(pool.Row(i), seed));
             if (distance < minDistance[i])
             {
                 minDistance[i] = distance;

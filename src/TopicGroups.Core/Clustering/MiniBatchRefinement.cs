@@ -1,4 +1,5 @@
 using System.Diagnostics;
+using System.Runtime.CompilerServices;
 using TopicGroups.Core.Vectors;
 
 namespace TopicGroups.Core.Clustering;
@@ -18,6 +19,7 @@ namespace TopicGroups.Core.Clustering;
 /// </remarks>
 internal static class MiniBatchRefinement
 {
+    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
     public static double Refine(
         ClusteringWorkspace ws,
         SphericalKMeansOptions options,
@@ -84,40 +86,9 @@ internal static class MiniBatchRefinement
 
             ws.Panel.Pack(ws.Centroids);
             batchBlocks.ForEachBlock((block, worker) =>
-            {
-                int start = batchBlocks.Start(block);
-                int length = batchBlocks.Length(block);
-                float[] rows = gathered[worker] ??= new float[RowBlocks.BlockRows * d];
-                for (int r = 0; r < length; r++)
-                {
-                    ws.Row(batch[start + r]).CopyTo(rows.AsSpan(r * d, d));
-                }
-
-                Span<float> scores = ws.BlockScratch[worker].AsSpan(0, length * k);
-                BlockScores.Compute(rows.AsSpan(0, length * d), ws.Panel, scores, k);
-                int changed = 0;
-                double sum = 0;
-                for (int r = 0; r < length; r++)
-                {
-                    ReadOnlySpan<float> rowScores = scores.Slice(r * k, k);
-                    int best = 0;
-                    for (int j = 1; j < k; j++)
-                    {
-                        if (rowScores[j] > rowScores[best])
-                        {
-                            best = j;
-                        }
-                    }
-
-                    batchGroup[start + r] = best;
-                    batchSimilarity[start + r] = rowScores[best];
-                    changed += ws.Assignments[batch[start + r]] != best ? 1 : 0;
-                    sum += rowScores[best];
-                }
-
-                blockChanged[block] = changed;
-                blockScore[block] = sum;
-            });
+                (blockChanged[block], blockScore[block]) = AssignBatchBlock(
+                    ws, batch, batchBlocks.Start(block), batchBlocks.Length(block), gathered[worker] ??= new float[RowBlocks.BlockRows * d],
+                    ws.BlockScratch[worker], batchGroup, batchSimilarity));
 
             int reassigned = 0;
             double batchObjective = 0;
@@ -162,6 +133,43 @@ internal static class MiniBatchRefinement
         double objective = CentroidUpdate.Update(ws);
         GroupAssignment.ScoreAssigned(ws);
         return objective;
+    }
+
+    /// <summary>Gathers batch rows start..start+length, scores them, records each one's best group; returns (changed, Σ best cosine).</summary>
+    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
+    private static (int Changed, double Sum) AssignBatchBlock(
+        ClusteringWorkspace ws, int[] batch, int start, int length, float[] rows, float[] scratch, int[] batchGroup, float[] batchSimilarity)
+    {
+        int d = ws.D;
+        int k = ws.K;
+        for (int r = 0; r < length; r++)
+        {
+            ws.Row(batch[start + r]).CopyTo(rows.AsSpan(r * d, d));
+        }
+
+        Span<float> scores = scratch.AsSpan(0, length * k);
+        BlockScores.Compute(rows.AsSpan(0, length * d), ws.Panel, scores, k);
+        int changed = 0;
+        double sum = 0;
+        for (int r = 0; r < length; r++)
+        {
+            ReadOnlySpan<float> rowScores = scores.Slice(r * k, k);
+            int best = 0;
+            for (int j = 1; j < k; j++)
+            {
+                if (rowScores[j] > rowScores[best])
+                {
+                    best = j;
+                }
+            }
+
+            batchGroup[start + r] = best;
+            batchSimilarity[start + r] = rowScores[best];
+            changed += ws.Assignments[batch[start + r]] != best ? 1 : 0;
+            sum += rowScores[best];
+        }
+
+        return (changed, sum);
     }
 
     /// <summary>target = mean / ‖mean‖; a mean of exactly zero (members that cancel) leaves the centroid where it was.</summary>

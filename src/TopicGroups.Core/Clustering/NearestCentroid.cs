@@ -1,3 +1,4 @@
+using System.Runtime.CompilerServices;
 using TopicGroups.Core.Vectors;
 
 namespace TopicGroups.Core.Clustering;
@@ -70,38 +71,7 @@ public static class NearestCentroid
         blocks.ForEachBlock((block, worker) =>
         {
             float[] scores = scratch[worker] ??= new float[RowBlocks.BlockRows * k];
-            int start = blocks.Start(block);
-            int length = blocks.Length(block);
-            BlockScores.Compute(rows.AsSpan(start * d, length * d), panel, scores, k);
-            double sum = 0;
-            for (int r = 0; r < length; r++)
-            {
-                ReadOnlySpan<float> rowScores = scores.AsSpan(r * k, k);
-                int best = 0;
-                float bestScore = rowScores[0];
-                for (int j = 1; j < k; j++)
-                {
-                    if (rowScores[j] > bestScore)
-                    {
-                        best = j;
-                        bestScore = rowScores[j];
-                    }
-                }
-
-                if (assignments is not null)
-                {
-                    assignments[start + r] = best;
-                }
-
-                if (similarities is not null)
-                {
-                    similarities[start + r] = bestScore;
-                }
-
-                sum += bestScore;
-            }
-
-            blockSums[block] = sum;
+            blockSums[block] = AssignBlock(rows, d, k, panel, blocks.Start(block), blocks.Length(block), scores, assignments, similarities);
         });
 
         double total = 0;
@@ -111,5 +81,41 @@ public static class NearestCentroid
         }
 
         return total / n;
+    }
+
+    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
+    private static double AssignBlock(
+        float[] rows, int d, int k, CentroidPanel panel, int start, int length, float[] scores, int[]? assignments, float[]? similarities)
+    {
+        BlockScores.Compute(rows.AsSpan(start * d, length * d), panel, scores, k);
+        double sum = 0;
+        for (int r = 0; r < length; r++)
+        {
+            ReadOnlySpan<float> rowScores = scores.AsSpan(r * k, k);
+            int best = 0;
+            float bestScore = rowScores[0];
+            for (int j = 1; j < k; j++)
+            {
+                if (rowScores[j] > bestScore)
+                {
+                    best = j;
+                    bestScore = rowScores[j];
+                }
+            }
+
+            if (assignments is not null)
+            {
+                assignments[start + r] = best;
+            }
+
+            if (similarities is not null)
+            {
+                similarities[start + r] = bestScore;
+            }
+
+            sum += bestScore;
+        }
+
+        return sum;
     }
 }

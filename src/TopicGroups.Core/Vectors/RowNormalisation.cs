@@ -37,11 +37,11 @@ public static class RowNormalisation
                 float norm = norms[i];
                 if (!IsUsable(norm))
                 {
-                    TensorPrimitives.Divide(values, TensorPrimitives.MaxMagnitude(values), values);
-                    norm = TensorPrimitives.Norm(values);
+                    DotProduct.Divide(values, TensorPrimitives.MaxMagnitude(values));
+                    norm = DotProduct.Norm(values);
                 }
 
-                TensorPrimitives.Divide(values, norm, values);
+                DotProduct.Divide(values, norm);
             }
         });
     }
@@ -63,7 +63,7 @@ public static class RowNormalisation
         {
             for (int i = from; i < to; i++)
             {
-                norms[i] = TensorPrimitives.Norm(matrix.Row(i));
+                norms[i] = DotProduct.Norm(matrix.Row(i));
             }
         });
 
