@@ -96,6 +96,7 @@ internal static class GroupAssignment
     /// directions (stable for small angles, where arccos of a dot product is not); then the jumpers: the
     /// 16 centroids that moved most (none when no centroid moved more than 0.002 radians).
     /// </summary>
+    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
     private static void MeasureMovements(ClusteringWorkspace ws, AssignmentBounds bounds)
     {
         int d = ws.D;

@@ -25,6 +25,7 @@ internal static class KMeansPlusPlusSeeding
     /// cosine of each pool row to its nearest seed. Deterministic for a generator state and any thread
     /// count: the weights are summed per block and the draw walks blocks in order.
     /// </summary>
+    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
     public static double Seed(SeedingPool pool, float[] centroids, int k, int candidatesPerStep, ref SplitMix64 random, CancellationToken cancellationToken)
     {
         ArgumentOutOfRangeException.ThrowIfLessThan(candidatesPerStep, 1);
@@ -66,6 +67,7 @@ internal static class KMeansPlusPlusSeeding
     /// once, keeps the candidate with the lowest Σ min(D, 1 − cos) (ties: the earlier draw) as seed
     /// <paramref name="seedIndex"/>, and returns the new Σ D (reduced in block order).
     /// </summary>
+    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
     private static double GreedyStep(SeedingPool pool, float[] centroids, int seedIndex, int candidates, double total, ref SplitMix64 random)
     {
         int d = pool.D;
@@ -163,6 +165,7 @@ internal static class KMeansPlusPlusSeeding
     }
 
     /// <summary>Lowers each row's distance with seed <paramref name="seedIndex"/>; returns Σ distances, reduced in block order.</summary>
+    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
     private static double UpdateDistances(SeedingPool pool, float[] centroids, int seedIndex)
     {
         RowBlocks blocks = pool.Blocks;
@@ -201,6 +204,7 @@ internal static class KMeansPlusPlusSeeding
     }
 
     /// <summary>The first row whose cumulative weight exceeds <paramref name="target"/>; a chosen seed has weight 0 and is never drawn.</summary>
+    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
     private static int DrawWeighted(SeedingPool pool, double target)
     {
         RowBlocks blocks = pool.Blocks;
@@ -263,6 +267,7 @@ internal static class KMeansPlusPlusSeeding
     /// Every row coincides with a seed (fewer distinct rows than groups): a uniform draw among the rows
     /// not yet taken, so seeds stay distinct rows and every group starts with a member.
     /// </summary>
+    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
     private static int DrawUnchosen(SeedingPool pool, ref SplitMix64 random, int seedsSoFar)
     {
         int target = random.NextInt(pool.N - seedsSoFar);

@@ -108,6 +108,7 @@ internal sealed class SeedingPool
     /// stopped after N steps) of all row indices, then sorted so the copy reads the input front to back.
     /// Does nothing when the pool is every row.
     /// </summary>
+    [System.Runtime.CompilerServices.MethodImpl(System.Runtime.CompilerServices.MethodImplOptions.AggressiveOptimization)]
     public void Draw(ref SplitMix64 random)
     {
         if (!IsSampled)
