@@ -63,6 +63,23 @@ public sealed class MiniLmEmbedderTests
     }
 
     [Fact]
+    public void Embed_CancelledMidway_OperationCanceledSoon()
+    {
+        // 4,000 texts take tens of seconds here; cancelling after 300 ms must stop the model calls (ONNX Runtime's
+        // terminate flag) and surface as OperationCanceledException, which the server turns into CANCELLED or
+        // DEADLINE_EXCEEDED, not as a wrapped runtime error.
+        using var embedder = new MiniLmEmbedder();
+        string[] texts = [.. Enumerable.Range(0, 4000).Select(i => $"Ticket {i}: the ferry to the island left late again and nobody told us why.")];
+        float[] vectors = new float[texts.Length * MiniLmEmbedder.Dimensions];
+        using var cancellation = new CancellationTokenSource(TimeSpan.FromMilliseconds(300));
+        var stopwatch = System.Diagnostics.Stopwatch.StartNew();
+
+        Assert.ThrowsAny<OperationCanceledException>(() => embedder.Embed(texts, vectors, batchSize: 8, workers: 2, cancellationToken: cancellation.Token));
+
+        Assert.True(stopwatch.Elapsed < TimeSpan.FromSeconds(10), $"stopped after {stopwatch.Elapsed}");
+    }
+
+    [Fact]
     public void ModelDescription_NamesModelAndPackageVersion()
     {
         Assert.Matches(@"^all-MiniLM-L6-v2 \(SentenceTransformers\.MiniLM \d+\.\d+\.\d+\)$", MiniLmEmbedder.ModelDescription);
