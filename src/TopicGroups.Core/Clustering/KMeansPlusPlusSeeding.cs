@@ -34,32 +34,26 @@ internal static class KMeansPlusPlusSeeding
         Array.Clear(pool.IsSeed);
         Array.Fill(pool.MinDistance, float.PositiveInfinity);
 
-        int first = random.NextInt(n);
-        TakeSeed(pool, centroids, 0, first);
-        double total = UpdateDistances(pool, centroids, 0);
+        double total = Keep(pool, centroids, 0, random.NextInt(n));
         for (int c = 1; c < k; c++)
         {
             cancellationToken.ThrowIfCancellationRequested();
-            if (!(total > 0))
-            {
-                int unchosen = DrawUnchosen(pool, ref random, c);
-                TakeSeed(pool, centroids, c, unchosen);
-                total = UpdateDistances(pool, centroids, c);
-            }
-            else if (candidatesPerStep == 1)
-            {
-                int chosen = DrawWeighted(pool, random.NextDouble() * total);
-                TakeSeed(pool, centroids, c, chosen);
-                total = UpdateDistances(pool, centroids, c);
-            }
-            else
-            {
-                total = GreedyStep(pool, centroids, c, candidatesPerStep, total, ref random);
-            }
+            total = total > 0
+                ? Step(pool, centroids, c, candidatesPerStep, total, ref random)
+                : Keep(pool, centroids, c, DrawUnchosen(pool, ref random, c));
         }
 
         // Σ (1 − D) / n = mean cosine to the nearest seed.
         return (n - total) / n;
+    }
+
+    /// <summary>Makes pool row <paramref name="row"/> seed <paramref name="seedIndex"/>; returns the new Σ D.</summary>
+    private static double Keep(SeedingPool pool, float[] centroids, int seedIndex, int row)
+    {
+        pool.CandidateRows[0] = row;
+        pool.Row(row).CopyTo(pool.CandidateValues.AsSpan(0, pool.D));
+        ScoreCandidates(pool, 1, weighCandidates: false);
+        return KeepCandidate(pool, centroids, seedIndex, 0);
     }
 
     /// <summary>
@@ -68,108 +62,82 @@ internal static class KMeansPlusPlusSeeding
     /// <paramref name="seedIndex"/>, and returns the new Σ D (reduced in block order).
     /// </summary>
     [MethodImpl(MethodImplOptions.AggressiveOptimization)]
-    private static double GreedyStep(SeedingPool pool, float[] centroids, int seedIndex, int candidates, double total, ref SplitMix64 random)
+    private static double Step(SeedingPool pool, float[] centroids, int seedIndex, int candidates, double total, ref SplitMix64 random)
     {
         int d = pool.D;
-        int[] drawn = pool.CandidateRows;
-        float[] candidateValues = pool.CandidateValues;
         for (int l = 0; l < candidates; l++)
         {
-            drawn[l] = DrawWeighted(pool, random.NextDouble() * total);
-            pool.Row(drawn[l]).CopyTo(candidateValues.AsSpan(l * d, d));
+            int drawn = DrawWeighted(pool, random.NextDouble() * total);
+            pool.CandidateRows[l] = drawn;
+            pool.Row(drawn).CopyTo(pool.CandidateValues.AsSpan(l * d, d));
         }
 
-        CentroidPanel panel = pool.CandidatePanel(candidates);
-        panel.Pack(candidateValues.AsSpan(0, candidates * d));
-        RowBlocks blocks = pool.Blocks;
-        blocks.ForEachBlock((block, _) => ScoreCandidatesBlock(pool, panel, candidates, block));
-
+        ScoreCandidates(pool, candidates, weighCandidates: candidates > 1);
         int best = 0;
-        double bestPotential = double.PositiveInfinity;
-        for (int l = 0; l < candidates; l++)
+        if (candidates > 1)
         {
-            double potential = 0;
-            for (int block = 0; block < blocks.Count; block++)
-            {
-                potential += pool.BlockCandidateWeight[block * pool.MaxCandidates + l];
-            }
-
-            if (potential < bestPotential)
-            {
-                best = l;
-                bestPotential = potential;
-            }
-        }
-
-        TakeSeed(pool, centroids, seedIndex, drawn[best]);
-        blocks.ForEachBlock((block, _) => KeepCandidateBlock(pool, candidates, best, block));
-        double newTotal = 0;
-        for (int block = 0; block < blocks.Count; block++)
-        {
-            newTotal += pool.BlockWeight[block];
-        }
-
-        return newTotal;
-    }
-
-    /// <summary>Scores one block of pool rows against the candidates and sums, per candidate, the distances it would leave.</summary>
-    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
-    private static void ScoreCandidatesBlock(SeedingPool pool, CentroidPanel panel, int candidates, int block)
-    {
-        int d = pool.D;
-        int start = pool.Blocks.Start(block);
-        int length = pool.Blocks.Length(block);
-        Span<float> scores = pool.CandidateScores.AsSpan(start * candidates, length * candidates);
-        BlockScores.Compute(pool.Rows.AsSpan(start * d, length * d), panel, scores, candidates);
-
-        Span<double> sums = pool.BlockCandidateWeight.AsSpan(block * pool.MaxCandidates, candidates);
-        sums.Clear();
-        float[] minDistance = pool.MinDistance;
-        for (int r = 0; r < length; r++)
-        {
-            float current = minDistance[start + r];
+            double bestPotential = double.PositiveInfinity;
             for (int l = 0; l < candidates; l++)
             {
-                sums[l] += MathF.Min(current, MathF.Max(0f, 1f - scores[r * candidates + l]));
+                double potential = 0;
+                for (int block = 0; block < pool.Blocks.Count; block++)
+                {
+                    potential += pool.BlockCandidateWeight[block * pool.MaxCandidates + l];
+                }
+
+                if (potential < bestPotential)
+                {
+                    best = l;
+                    bestPotential = potential;
+                }
             }
         }
+
+        return KeepCandidate(pool, centroids, seedIndex, best);
     }
 
-    /// <summary>Lowers each row's distance with the kept candidate; a seed's own distance is exactly 0.</summary>
+    /// <summary>Scores every pool row against the candidates (and, when asked, sums per block the distances each would leave).</summary>
+    private static void ScoreCandidates(SeedingPool pool, int candidates, bool weighCandidates) =>
+        pool.Blocks.ForEachBlock((block, _) => ScoreCandidatesBlock(pool, candidates, weighCandidates, block));
+
     [MethodImpl(MethodImplOptions.AggressiveOptimization)]
-    private static void KeepCandidateBlock(SeedingPool pool, int candidates, int kept, int block)
+    private static void ScoreCandidatesBlock(SeedingPool pool, int candidates, bool weighCandidates, int block)
     {
+        int n = pool.N;
         int start = pool.Blocks.Start(block);
-        int end = start + pool.Blocks.Length(block);
-        float[] minDistance = pool.MinDistance;
+        int length = pool.Blocks.Length(block);
+        int firstPanel = start / CentroidPanel.PanelColumns;
+        int panels = (length + CentroidPanel.PanelColumns - 1) / CentroidPanel.PanelColumns;
+        panels = Math.Min(panels, pool.Packed.PanelCount - firstPanel);
         float[] scores = pool.CandidateScores;
-        double sum = 0;
-        for (int i = start; i < end; i++)
+        BlockScores.ComputeColumns(pool.CandidateValues.AsSpan(0, candidates * pool.D), pool.Packed, firstPanel, panels, scores, n);
+        if (!weighCandidates)
         {
-            float distance = pool.IsSeed[i] ? 0f : MathF.Max(0f, 1f - scores[i * candidates + kept]);
-            if (distance < minDistance[i])
-            {
-                minDistance[i] = distance;
-            }
-
-            sum += minDistance[i];
+            return;
         }
 
-        pool.BlockWeight[block] = sum;
+        float[] minDistance = pool.MinDistance;
+        for (int l = 0; l < candidates; l++)
+        {
+            ReadOnlySpan<float> row = scores.AsSpan(l * n + start, length);
+            double sum = 0;
+            for (int j = 0; j < length; j++)
+            {
+                sum += MathF.Min(minDistance[start + j], MathF.Max(0f, 1f - row[j]));
+            }
+
+            pool.BlockCandidateWeight[block * pool.MaxCandidates + l] = sum;
+        }
     }
 
-    private static void TakeSeed(SeedingPool pool, float[] centroids, int seedIndex, int row)
+    /// <summary>Makes candidate <paramref name="kept"/> the seed and lowers every row's distance with it; returns Σ D in block order.</summary>
+    private static double KeepCandidate(SeedingPool pool, float[] centroids, int seedIndex, int kept)
     {
+        int row = pool.CandidateRows[kept];
         pool.IsSeed[row] = true;
-        pool.Row(row).CopyTo(centroids.AsSpan(seedIndex * pool.D, pool.D));
-    }
-
-    /// <summary>Lowers each row's distance with seed <paramref name="seedIndex"/>; returns Σ distances, reduced in block order.</summary>
-    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
-    private static double UpdateDistances(SeedingPool pool, float[] centroids, int seedIndex)
-    {
+        pool.CandidateValues.AsSpan(kept * pool.D, pool.D).CopyTo(centroids.AsSpan(seedIndex * pool.D, pool.D));
         RowBlocks blocks = pool.Blocks;
-        blocks.ForEachBlock((block, _) => UpdateBlock(pool, centroids, seedIndex, block));
+        blocks.ForEachBlock((block, _) => KeepCandidateBlock(pool, kept, block));
         double total = 0;
         for (int block = 0; block < blocks.Count; block++)
         {
@@ -179,19 +147,19 @@ internal static class KMeansPlusPlusSeeding
         return total;
     }
 
+    /// <summary>Lowers each row's distance with the kept candidate; a seed's own distance is exactly 0, so it is never drawn again.</summary>
     [MethodImpl(MethodImplOptions.AggressiveOptimization)]
-    private static void UpdateBlock(SeedingPool pool, float[] centroids, int seedIndex, int block)
+    private static void KeepCandidateBlock(SeedingPool pool, int kept, int block)
     {
-        int d = pool.D;
-        float[] minDistance = pool.MinDistance;
-        ReadOnlySpan<float> seed = centroids.AsSpan(seedIndex * d, d);
         int start = pool.Blocks.Start(block);
         int end = start + pool.Blocks.Length(block);
+        float[] minDistance = pool.MinDistance;
+        ReadOnlySpan<float> scores = pool.CandidateScores.AsSpan(kept * pool.N, pool.N);
         double sum = 0;
         for (int i = start; i < end; i++)
         {
-            // Clamped at 0: rounding can put a cosine a hair above 1. A seed's own distance is exactly 0, so it is never drawn again.
-            float distance = pool.IsSeed[i] ? 0f : MathF.Max(0f, 1f - DotProduct.Dot(pool.Row(i), seed));
+            // Clamped at 0: rounding can put a cosine a hair above 1.
+            float distance = pool.IsSeed[i] ? 0f : MathF.Max(0f, 1f - scores[i]);
             if (distance < minDistance[i])
             {
                 minDistance[i] = distance;

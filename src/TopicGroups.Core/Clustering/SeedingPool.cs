@@ -11,8 +11,8 @@ namespace TopicGroups.Core.Clustering;
 /// peers' data: at 100,000 × 384, k = 100, a pool of 256 × k rows gave 0.5801 (10 seeds) and 1.3 s of seeding on
 /// a loaded machine, a pool of 8,192 rows 0.5810 and 0.28 s; on the harder variant 0.4804 against 0.4811; at
 /// 300,000 × 768, k = 200 (3 seeds, within seed-to-seed spread) 256 × k rows gave 0.5832, 128 × k 0.5816 and
-/// 64 × k 0.5815, with seeding 6.4, 2.1 and 2.0 s. The pool copy is 128 × k × d floats (79 MB at k = 200,
-/// d = 768). (k-means++ on a sample is common practice without a single source; faiss likewise trains on at
+/// 64 × k 0.5815, with seeding 6.4, 2.1 and 2.0 s. The pool copy (packed for the kernel) is 128 × k × d floats (79 MB at
+/// k = 200, d = 768); below the sample size it is a packed copy of every row. (k-means++ on a sample is common practice without a single source; faiss likewise trains on at
 /// most 256 rows per centroid by default.)
 /// </summary>
 internal sealed class SeedingPool
@@ -25,27 +25,32 @@ internal sealed class SeedingPool
     private readonly float[] _allRows;
     private readonly int[]? _permutation;
     private readonly int _totalRows;
-    private readonly CentroidPanel?[] _panels;
 
     public SeedingPool(float[] allRows, int n, int d, int k, int workerCount, bool sample, int maxCandidates, int sampleRowsPerGroup = SampleRowsPerGroup)
     {
+        ArgumentOutOfRangeException.ThrowIfLessThan(maxCandidates, 1);
         _allRows = allRows;
         _totalRows = n;
         D = d;
         N = sample ? SampleSize(n, k, sampleRowsPerGroup) : n;
         IsSampled = N < n;
+        SourceRows = new int[N];
+        Packed = new CentroidPanel(N, d);
         if (IsSampled)
         {
-            Rows = new float[N * d];
-            SourceRows = new int[N];
             _permutation = new int[n];
         }
         else
         {
-            Rows = allRows;
-            SourceRows = [];
+            for (int i = 0; i < N; i++)
+            {
+                SourceRows[i] = i;
+            }
+
+            Packed.Pack(allRows.AsSpan(0, N * d));
         }
 
+        // Blocks of pool rows are whole panels of the packed pool: 256 rows = 4 panels of 64.
         Blocks = new RowBlocks(N, workerCount);
         MinDistance = new float[N];
         IsSeed = new bool[N];
@@ -54,23 +59,25 @@ internal sealed class SeedingPool
         MaxCandidates = maxCandidates;
         CandidateRows = new int[maxCandidates];
         CandidateValues = new float[maxCandidates * d];
-        CandidateScores = maxCandidates > 1 ? new float[(long)N * maxCandidates > Array.MaxLength ? throw new ArgumentOutOfRangeException(nameof(maxCandidates)) : N * maxCandidates] : [];
+        CandidateScores = new float[(long)N * maxCandidates > Array.MaxLength ? throw new ArgumentOutOfRangeException(nameof(maxCandidates)) : N * maxCandidates];
         BlockCandidateWeight = new double[Blocks.Count * maxCandidates];
-        _panels = new CentroidPanel?[maxCandidates + 1];
     }
 
     public static int SampleSize(int n, int k, int rowsPerGroup = SampleRowsPerGroup) => (int)Math.Min(n, Math.Max(MinimumSample, (long)rowsPerGroup * k));
 
     public bool IsSampled { get; }
 
-    /// <summary>Pool rows, N × D: the caller's matrix, or the sample's copy.</summary>
-    public float[] Rows { get; }
+    /// <summary>
+    /// The pool rows packed as the columns of a <see cref="CentroidPanel"/> (N columns of d values): a k-means++ step
+    /// scores its few candidates (as rows) against every pool row (as columns) with full register tiles.
+    /// </summary>
+    public CentroidPanel Packed { get; }
 
     public int N { get; }
 
     public int D { get; }
 
-    /// <summary>When sampled: the input row behind each pool row, ascending.</summary>
+    /// <summary>The input row behind each pool row, ascending.</summary>
     public int[] SourceRows { get; }
 
     public RowBlocks Blocks { get; }
@@ -89,24 +96,22 @@ internal sealed class SeedingPool
     /// <summary>Pool indices of the current step's candidates.</summary>
     public int[] CandidateRows { get; }
 
-    /// <summary>The candidates' values, MaxCandidates × D.</summary>
+    /// <summary>The candidates' values, MaxCandidates × D, row-major.</summary>
     public float[] CandidateValues { get; }
 
-    /// <summary>N × candidates scores of the current step (row-major, stride = that step's candidate count).</summary>
+    /// <summary>The current step's scores, candidates × N: CandidateScores[l * N + i] = cos(candidate l, pool row i).</summary>
     public float[] CandidateScores { get; }
 
     /// <summary>Per block and candidate (stride MaxCandidates): Σ min(D, 1 − cos) if that candidate were kept.</summary>
     public double[] BlockCandidateWeight { get; }
 
-    /// <summary>The packed panel for <paramref name="candidates"/> candidates, allocated once per count.</summary>
-    public CentroidPanel CandidatePanel(int candidates) => _panels[candidates] ??= new CentroidPanel(candidates, D);
-
-    public ReadOnlySpan<float> Row(int i) => Rows.AsSpan(i * D, D);
+    /// <summary>Pool row i, read from the caller's matrix.</summary>
+    public ReadOnlySpan<float> Row(int i) => _allRows.AsSpan(SourceRows[i] * D, D);
 
     /// <summary>
     /// Draws this restart's sample: a partial Fisher–Yates shuffle (Knuth, TAOCP vol. 2, Algorithm P,
-    /// stopped after N steps) of all row indices, then sorted so the copy reads the input front to back.
-    /// Does nothing when the pool is every row.
+    /// stopped after N steps) of all row indices, sorted so the packing reads the input front to back, then
+    /// packs those rows. Does nothing when the pool is every row (packed once at construction).
     /// </summary>
     [System.Runtime.CompilerServices.MethodImpl(System.Runtime.CompilerServices.MethodImplOptions.AggressiveOptimization)]
     public void Draw(ref SplitMix64 random)
@@ -130,9 +135,6 @@ internal sealed class SeedingPool
 
         permutation.AsSpan(0, N).CopyTo(SourceRows);
         Array.Sort(SourceRows);
-        for (int s = 0; s < N; s++)
-        {
-            _allRows.AsSpan(SourceRows[s] * D, D).CopyTo(Rows.AsSpan(s * D, D));
-        }
+        Packed.PackRows(_allRows, SourceRows);
     }
 }

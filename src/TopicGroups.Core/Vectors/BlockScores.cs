@@ -55,6 +55,30 @@ internal static class BlockScores
         }
     }
 
+    /// <summary>
+    /// Like <see cref="Compute(ReadOnlySpan{float}, CentroidPanel, Span{float}, int)"/> for the panels
+    /// firstPanel .. firstPanel + panelCount − 1 only (columns 64·firstPanel onward): lets callers split a wide
+    /// panel (many columns, few rows) into column blocks. Scores keep their absolute column index.
+    /// </summary>
+    public static void ComputeColumns(ReadOnlySpan<float> rows, CentroidPanel panel, int firstPanel, int panelCount, Span<float> scores, int stride)
+    {
+        ArgumentOutOfRangeException.ThrowIfNegative(firstPanel);
+        ArgumentOutOfRangeException.ThrowIfNegative(panelCount);
+        ArgumentOutOfRangeException.ThrowIfGreaterThan(firstPanel + panelCount, panel.PanelCount, nameof(panelCount));
+        if (Vector512.IsHardwareAccelerated)
+        {
+            Vector512Panels(rows, panel, firstPanel, firstPanel + panelCount, scores, stride);
+        }
+        else if (Vector256.IsHardwareAccelerated && Fma.IsSupported)
+        {
+            Vector256Panels(rows, panel, firstPanel, firstPanel + panelCount, scores, stride);
+        }
+        else
+        {
+            ScalarPanels(rows, panel, firstPanel, firstPanel + panelCount, scores, stride);
+        }
+    }
+
     /// <summary>The plain triple loop on row-major centroids: the definition every faster path is tested against.</summary>
     internal static void Scalar(ReadOnlySpan<float> rows, ReadOnlySpan<float> centroids, int d, Span<float> scores)
     {
@@ -76,12 +100,16 @@ internal static class BlockScores
 
     /// <summary>The scalar fallback on packed centroids (machines with neither Vector512 nor Vector256 with FMA).</summary>
     [MethodImpl(MethodImplOptions.AggressiveOptimization)]
-    internal static void ScalarPacked(ReadOnlySpan<float> rows, CentroidPanel panel, Span<float> scores, int stride)
+    internal static void ScalarPacked(ReadOnlySpan<float> rows, CentroidPanel panel, Span<float> scores, int stride) =>
+        ScalarPanels(rows, panel, 0, panel?.PanelCount ?? 0, scores, stride);
+
+    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
+    internal static void ScalarPanels(ReadOnlySpan<float> rows, CentroidPanel panel, int firstPanel, int endPanel, Span<float> scores, int stride)
     {
         int n = CheckPacked(rows, panel, scores, stride);
         int d = panel.D;
         ReadOnlySpan<float> values = panel.Values;
-        for (int q = 0; q < panel.PanelCount; q++)
+        for (int q = firstPanel; q < endPanel; q++)
         {
             int width = panel.Width(q);
             ReadOnlySpan<float> block = values.Slice(panel.Offset(q), width * d);
@@ -105,7 +133,11 @@ internal static class BlockScores
 
     /// <summary>Tiles of 6 rows × 4 Vector512 (64 centroids); 24 accumulators of the 32 zmm registers.</summary>
     [MethodImpl(MethodImplOptions.AggressiveOptimization)]
-    internal static unsafe void Vector512Path(ReadOnlySpan<float> rows, CentroidPanel panel, Span<float> scores, int stride)
+    internal static void Vector512Path(ReadOnlySpan<float> rows, CentroidPanel panel, Span<float> scores, int stride) =>
+        Vector512Panels(rows, panel, 0, panel?.PanelCount ?? 0, scores, stride);
+
+    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
+    internal static unsafe void Vector512Panels(ReadOnlySpan<float> rows, CentroidPanel panel, int firstPanel, int endPanel, Span<float> scores, int stride)
     {
         if (!Vector512.IsHardwareAccelerated)
         {
@@ -118,7 +150,7 @@ internal static class BlockScores
         fixed (float* panelStart = panel.Values)
         fixed (float* scoresStart = scores)
         {
-            for (int q = 0; q < panel.PanelCount; q++)
+            for (int q = firstPanel; q < endPanel; q++)
             {
                 int width = panel.Width(q);
                 int firstColumn = q * CentroidPanel.PanelColumns;
@@ -145,7 +177,11 @@ internal static class BlockScores
 
     /// <summary>Tiles of 4 rows × 2 Vector256 (16 centroids); 8 accumulators, within AVX2's 16 ymm registers.</summary>
     [MethodImpl(MethodImplOptions.AggressiveOptimization)]
-    internal static unsafe void Vector256Path(ReadOnlySpan<float> rows, CentroidPanel panel, Span<float> scores, int stride)
+    internal static void Vector256Path(ReadOnlySpan<float> rows, CentroidPanel panel, Span<float> scores, int stride) =>
+        Vector256Panels(rows, panel, 0, panel?.PanelCount ?? 0, scores, stride);
+
+    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
+    internal static unsafe void Vector256Panels(ReadOnlySpan<float> rows, CentroidPanel panel, int firstPanel, int endPanel, Span<float> scores, int stride)
     {
         if (!Vector256.IsHardwareAccelerated || !Fma.IsSupported)
         {
@@ -158,7 +194,7 @@ internal static class BlockScores
         fixed (float* panelStart = panel.Values)
         fixed (float* scoresStart = scores)
         {
-            for (int q = 0; q < panel.PanelCount; q++)
+            for (int q = firstPanel; q < endPanel; q++)
             {
                 int width = panel.Width(q);
                 int firstPanelColumn = q * CentroidPanel.PanelColumns;

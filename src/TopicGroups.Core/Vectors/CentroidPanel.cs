@@ -59,6 +59,30 @@ internal sealed class CentroidPanel
     /// <summary>Start of panel q in <see cref="Values"/>.</summary>
     public int Offset(int panel) => panel * PanelColumns * D;
 
+    /// <summary>Packs rows source[rowIndices[j]] (row-major, d values each) as columns j = 0 .. K − 1.</summary>
+    public void PackRows(ReadOnlySpan<float> source, ReadOnlySpan<int> rowIndices)
+    {
+        if (rowIndices.Length != K)
+        {
+            throw new ArgumentException($"rowIndices has {rowIndices.Length} entries; {K} expected.", nameof(rowIndices));
+        }
+
+        Span<float> values = Values;
+        values.Clear();
+        for (int j = 0; j < K; j++)
+        {
+            int panel = j / PanelColumns;
+            int width = Width(panel);
+            Span<float> block = values.Slice(Offset(panel), width * D);
+            int c = j - panel * PanelColumns;
+            ReadOnlySpan<float> row = source.Slice(rowIndices[j] * D, D);
+            for (int p = 0; p < D; p++)
+            {
+                block[p * width + c] = row[p];
+            }
+        }
+    }
+
     /// <summary>Repacks row-major centroids k × d.</summary>
     public void Pack(ReadOnlySpan<float> centroids)
     {
