@@ -13,6 +13,8 @@ namespace TopicGroups.Core.Terms;
 /// <item>An apostrophe (' or U+2019) between letters is read with the letters after it: a possessive
 /// "'s" is dropped and the word before it kept ("customer's" gives "customer"); any other suffix marks a
 /// contraction ("don't", "I've", "couldn't"), a function word, and the whole token is dropped.</item>
+/// <item>One to <see cref="MaximumCodePrefixLength"/> capital letters directly followed by '-' or '_' and a
+/// digit are the prefix of an identifier (order "FF-48213", ticket "INC_2291"), not a word: dropped.</item>
 /// <item>Each code point is lower-cased with the invariant culture's simple case mapping.</item>
 /// <item>A token is dropped when it has fewer than two letters or digits (a single character), when it
 /// has no letter at all (pure digits such as order numbers and years), or when it is longer than
@@ -24,6 +26,8 @@ namespace TopicGroups.Core.Terms;
 internal static class Tokeniser
 {
     public const int MaximumTokenLength = 64;
+
+    public const int MaximumCodePrefixLength = 3;
 
     /// <summary>Reads the tokens of <paramref name="text"/>; each is written lower-cased into <paramref name="buffer"/>.</summary>
     /// <param name="buffer">Scratch space of at least <see cref="MaximumTokenLength"/> characters, reused for every token.</param>
@@ -82,6 +86,7 @@ internal ref struct TokenReader
             bool hasLetter = false;
             bool tooLong = false;
             bool contraction = false;
+            bool allCapitals = true;
             while (position < text.Length)
             {
                 char c = text[position];
@@ -112,6 +117,7 @@ internal ref struct TokenReader
                     position++;
                     lettersAndDigits++;
                     hasLetter |= isLetter;
+                    allCapitals &= isUpper;
                     if (written < buffer.Length)
                     {
                         buffer[written++] = isUpper ? (char)(c | 0x20) : c;
@@ -134,6 +140,7 @@ internal ref struct TokenReader
                 }
 
                 position += consumed;
+                allCapitals = false;
                 bool letter = category <= UnicodeCategory.OtherLetter;
                 if (letter || category == UnicodeCategory.DecimalDigitNumber)
                 {
@@ -151,7 +158,9 @@ internal ref struct TokenReader
                 }
             }
 
-            if (lettersAndDigits >= 2 && hasLetter && !tooLong && !contraction)
+            bool codePrefix = allCapitals && lettersAndDigits <= Tokeniser.MaximumCodePrefixLength
+                && position + 1 < text.Length && (text[position] == '-' || text[position] == '_') && char.IsAsciiDigit(text[position + 1]);
+            if (lettersAndDigits >= 2 && hasLetter && !tooLong && !contraction && !codePrefix)
             {
                 _position = position;
                 _length = written;

@@ -27,6 +27,15 @@ public sealed class TokeniserTests
     }
 
     [Theory]
+    [InlineData("order FF-48213 late", new[] { "order", "late" })]
+    [InlineData("see INC_2291 and ABCD-12", new[] { "see", "and", "abcd" })]
+    [InlineData("covid-19 and Ff-48213 and FF-X", new[] { "covid", "and", "ff", "and", "ff" })]
+    public void Tokenise_ShortCapitalCodeBeforeDigits_DroppedAsIdentifier(string text, string[] expected)
+    {
+        Assert.Equal(expected, Tokeniser.Tokenise(text));
+    }
+
+    [Theory]
     [InlineData("LOUD Quiet mIxEd", new[] { "loud", "quiet", "mixed" })]
     [InlineData("ÉCOLE École école", new[] { "école", "école", "école" })]
     [InlineData("ΣΟΦΙΑ", new[] { "σοφια" })]          // simple case mapping: no final-sigma form
