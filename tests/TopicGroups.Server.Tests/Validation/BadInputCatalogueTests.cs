@@ -6,6 +6,7 @@ using Grpc.Health.V1;
 using Microsoft.Data.Sqlite;
 using TopicGroups.Protos.V1;
 using Xunit;
+using Xunit.Abstractions;
 
 namespace TopicGroups.Server.Tests.Validation;
 
@@ -45,7 +46,7 @@ public sealed class CatalogueHost : TestHost, IDisposable
 /// The cases of docs/bad-input.md that no other test file covers, each through the real gRPC path, plus a
 /// seeded random mutation test. Every rejected call that asked to save is checked to have saved nothing.
 /// </summary>
-public sealed class BadInputCatalogueTests(CatalogueHost host) : IClassFixture<CatalogueHost>
+public sealed class BadInputCatalogueTests(CatalogueHost host, ITestOutputHelper output) : IClassFixture<CatalogueHost>
 {
     private TopicGroupsService.TopicGroupsServiceClient Client => host.Client;
 
@@ -453,6 +454,7 @@ public sealed class BadInputCatalogueTests(CatalogueHost host) : IClassFixture<C
             }
         }
 
+        output.WriteLine(string.Join(", ", seen.OrderBy(pair => pair.Key).Select(pair => $"{pair.Key}: {pair.Value}")));
         Assert.True(seen.GetValueOrDefault(StatusCode.OK) > 0, "some mutations leave a valid request");
         Assert.True(seen.GetValueOrDefault(StatusCode.InvalidArgument) > Calls / 4, string.Join(", ", seen));
         HealthCheckResponse health = await new Health.HealthClient(host.Channel).CheckAsync(new HealthCheckRequest());
@@ -466,7 +468,7 @@ public sealed class BadInputCatalogueTests(CatalogueHost host) : IClassFixture<C
     private static bool Mutate(Random random, List<Document> documents, GroupingOptions options)
     {
         Document target = documents[random.Next(documents.Count)];
-        switch (random.Next(16))
+        switch (random.Next(17))
         {
             case 0: target.Id = string.Empty; break;
             case 1: target.Id = documents[0].Id == target.Id ? documents[^1].Id : documents[0].Id; break;
@@ -494,6 +496,7 @@ public sealed class BadInputCatalogueTests(CatalogueHost host) : IClassFixture<C
             case 12: target.Id = new string('i', random.Next(250, 400)); break;
             case 13: options.SaveAs = random.Next(2) == 0 ? "Bad Name" : "groupings/x"; break;
             case 14: options.Reference = random.Next(2) == 0 ? "groupings/never-made" : "nope"; break;
+            case 15: target.Text = new string('t', random.Next(60_000, 80_000)); break;   // around the 64 KiB message limit
             default: return true;
         }
 
