@@ -184,7 +184,9 @@ internal static class HtmlReport
             .Append(report.Statistics.EmbeddingModel.Length > 0
                 ? "made by the service from the texts with " + HtmlText.Encode(report.Statistics.EmbeddingModel)
                 : string.Create(Invariant, $"sent with the documents ({report.Statistics.Dimensions:N0} dimensions)"))
-            .Append(Invariant, $". Grouping took {report.Statistics.Seconds + report.Statistics.EmbeddingSeconds:F1} s.</p>\n");
+            .Append(report.Statistics.EmbeddingModel.Length > 0
+                ? string.Create(Invariant, $". Embedding took {report.Statistics.EmbeddingSeconds:F1} s, grouping {report.Statistics.Seconds:F1} s.</p>\n")
+                : string.Create(Invariant, $". Grouping took {report.Statistics.Seconds:F1} s.</p>\n"));
 
         if (response.Quality is { NoStructure: true } || response.GroupCountChoice is { NoStructure: true })
         {
