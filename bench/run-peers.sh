@@ -10,7 +10,8 @@
 #   Sh Mh Lh       the same shapes, harder: --centre-corr 0.3 --mean-cos 0.5 (centres share a direction)
 #   Mgrpc          M through the gRPC service hosted in-process (bench --through-service), ours only
 # Default sets: S M Sh Mh Mgrpc. Peers on L/Lh: faiss_full only (scikit-learn would take minutes per run);
-# set PEERS_L="faiss_full sk_lloyd" to add it.
+# set PEERS_L="faiss_full sk_lloyd" to add it. Before each run it waits up to QUIET_WAIT seconds (default 60)
+# for other processes to use under QUIET_CORES cores (default 0.3); each line records what it found.
 # Needs: the .NET SDK; Debian's python3-numpy python3-faiss python3-sklearn
 # (apt-get update && apt-get install -y python3-numpy python3-faiss python3-sklearn).
 set -euo pipefail
@@ -21,6 +22,8 @@ data="${BENCH_DATA:-/tmp/topicgroups-bench-data}"
 out=""
 iterations=20
 threads=""
+quiet_wait="${QUIET_WAIT:-60}"     # seconds to wait for a quiet machine before each run
+quiet_cores="${QUIET_CORES:-0.3}"
 sets=()
 while [ $# -gt 0 ]; do
   case "$1" in
@@ -73,6 +76,31 @@ generate() {
 
 load1() { cut -d' ' -f1 /proc/loadavg; }
 
+# Cores kept busy by other processes over one second (from /proc/stat), like peers.py's contention check.
+busy_cores() {
+  /usr/bin/python3 - <<'PY'
+import os, time
+def busy():
+    with open("/proc/stat") as f:
+        v = [int(x) for x in f.readline().split()[1:9]]
+    return (v[0] + v[1] + v[2] + v[5] + v[6] + v[7]) / os.sysconf("SC_CLK_TCK")
+b, t = busy(), time.perf_counter()
+time.sleep(1.0)
+print(round((busy() - b) / (time.perf_counter() - t), 2))
+PY
+}
+
+# Wait (at most $quiet_wait seconds) until other processes use less than $quiet_cores cores.
+wait_quiet() {
+  local waited=0 cores
+  cores="$(busy_cores)"
+  while /usr/bin/python3 -c "import sys; sys.exit(0 if float(sys.argv[1]) >= float(sys.argv[2]) else 1)" "$cores" "$quiet_cores" \
+        && [ "$waited" -lt "$quiet_wait" ]; do
+    sleep 2; waited=$((waited + 3)); cores="$(busy_cores)"
+  done
+  echo "$cores"
+}
+
 # One JSON line of ours, tagged like the peers' lines.
 ours() {  # set rep
   local set="$1" rep="$2" name; name="$(dataset "$set")"
@@ -80,11 +108,11 @@ ours() {  # set rep
   local extra=()
   [ "$set" = Mgrpc ] && extra+=(--through-service)
   [ -n "$threads" ] && extra+=(--threads "$threads")
-  local before; before="$(load1)"
+  local before busy; before="$(load1)"; busy="$(wait_quiet)"
   local line
   line="$("$cli" bench --embeddings "$data/${name}_X.npy" --groups "$k" --iterations "$iterations" --seed 0 "${extra[@]}")"
-  /usr/bin/python3 -c 'import json,sys; r=json.loads(sys.argv[1]); r.update(peer=sys.argv[2], dataset=sys.argv[3], rep=int(sys.argv[4]), load1_before=float(sys.argv[5])); print(json.dumps(r))' \
-    "$line" "topicgroups$([ "$set" = Mgrpc ] && echo _grpc)" "$set" "$rep" "$before"
+  /usr/bin/python3 -c 'import json,sys; r=json.loads(sys.argv[1]); r.update(peer=sys.argv[2], dataset=sys.argv[3], rep=int(sys.argv[4]), load1_before=float(sys.argv[5]), pre_other_cores=float(sys.argv[6])); print(json.dumps(r))' \
+    "$line" "topicgroups$([ "$set" = Mgrpc ] && echo _grpc)" "$set" "$rep" "$before" "$busy"
 }
 
 peer() {  # set rep peer
@@ -95,7 +123,7 @@ peer() {  # set rep peer
   # As ../shared/peers/README.md says: OpenBLAS runs fastest here with these two unset and passive OpenMP waits.
   env -u OPENBLAS_CORETYPE -u OPENBLAS_L2_SIZE OMP_WAIT_POLICY=PASSIVE \
     /usr/bin/python3 "$peers_dir/peers.py" "$data/${set}_X.npy" --k "$k" --iters "$iterations" --seed 0 \
-    --peer "$which" --reps 1 --tag "rep$rep" "${thread_args[@]}" \
+    --peer "$which" --reps 1 --tag "rep$rep" --quiet-wait "$quiet_wait" --quiet-cores "$quiet_cores" "${thread_args[@]}" \
     | /usr/bin/python3 -c 'import json,sys
 for l in sys.stdin:
     r=json.loads(l); r["dataset"]=sys.argv[1]; r["rep"]=int(sys.argv[2]); print(json.dumps(r))' "$set" "$rep"

@@ -48,14 +48,14 @@ def main(paths):
         by[(r["dataset"], r["peer"])].append(r)
 
     datasets = sorted({d for d, _ in by}, key=lambda d: ("SMLX".find(d[0]), d))
-    print("| data | runner | reps | seconds (median) | seeding s | objective | peak MiB | loads (1-min) |")
+    print("| data | runner | reps | seconds (median) | seeding s | objective | peak MiB | other cores busy before |")
     print("|---|---|---|---|---|---|---|---|")
     for d in datasets:
         for (dd, peer), rs in sorted(by.items()):
             if dd != d:
                 continue
-            loads = [r.get("load1_before") for r in rs if r.get("load1_before") is not None]
-            load_text = f"{min(loads):.1f}-{max(loads):.1f}" if loads else "-"
+            loads = [r.get("pre_other_cores") for r in rs if r.get("pre_other_cores") is not None]
+            load_text = f"{min(loads):.2f}-{max(loads):.2f}" if loads else "-"
             print(f"| {d} | {peer} | {len(rs)} | {fmt(med(seconds(r) for r in rs))} | {fmt(med(seeding(r) for r in rs))} "
                   f"| {fmt(med(r.get('objective') for r in rs), 5)} | {fmt(med(peak_mib(r) for r in rs), 0)} | {load_text} |")
 
