@@ -46,6 +46,9 @@ internal sealed class AssignmentBounds
         }
     }
 
+    /// <summary>Prune every pass after the first, however far the centroids moved (tests; normally passes wait for small moves).</summary>
+    public bool AlwaysPrune { get; set; }
+
     /// <summary>True when the bounds hold for <see cref="PreviousCentroids"/>; false at the start of every run.</summary>
     public bool Valid { get; set; }
 

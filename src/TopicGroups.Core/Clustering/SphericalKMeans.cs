@@ -40,6 +40,11 @@ public static class SphericalKMeans
         int k = options.GroupCount;
         int seedCandidates = options.ResolveSeedCandidates();
         var ws = new ClusteringWorkspace(unitRows, k, options.ResolveWorkerCount(), !options.SeedOnEveryRow, seedCandidates, options.ResolvePruning(), options.SeedingSampleRowsPerGroup);
+        if (ws.Bounds is not null)
+        {
+            ws.Bounds.AlwaysPrune = options.ForcePruning;
+        }
+
 
         // The kept run, copied out of the workspace whenever a restart beats it.
         float[] keptCentroids = new float[k * d];

@@ -67,7 +67,7 @@ public sealed record SphericalKMeansOptions
     /// <summary>When set, every assignment pass scores every row against every centroid (for comparisons and benchmarks).</summary>
     internal bool DisablePruning { get; init; }
 
-    /// <summary>When set, bounds prune assignment passes even below <see cref="PruningMinimumGroups"/> groups (for tests).</summary>
+    /// <summary>When set, bounds prune every assignment pass after the first, even below <see cref="PruningMinimumGroups"/> groups and while centroids still move far (for tests).</summary>
     internal bool ForcePruning { get; init; }
 
     /// <summary>

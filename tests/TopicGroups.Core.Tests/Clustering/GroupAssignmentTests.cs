@@ -15,6 +15,10 @@ public sealed class GroupAssignmentTests
     private static ClusteringWorkspace SeededWorkspace(EmbeddingMatrix rows, int k, int workers, bool pruning, ulong seed = 9)
     {
         var ws = new ClusteringWorkspace(rows, k, workers, sampleForSeeding: false, seedCandidates: 1, pruning);
+        if (ws.Bounds is not null)
+        {
+            ws.Bounds.AlwaysPrune = true;   // every test here exercises the pruned passes from the second on
+        }
         SplitMix64 random = SplitMix64.ForStream(seed, 0);
         KMeansPlusPlusSeeding.Seed(ws.Seeding, ws.Centroids, k, 1, ref random, CancellationToken.None);
         Array.Fill(ws.Assignments, -1);
