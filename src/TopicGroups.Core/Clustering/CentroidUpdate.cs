@@ -131,6 +131,7 @@ internal static class CentroidUpdate
     }
 
     /// <summary>Writes centroid c = s_c / ‖s_c‖ and returns ‖s_c‖.</summary>
+    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
     private static double Normalise(ClusteringWorkspace ws, int c)
     {
         int d = ws.D;

@@ -366,6 +366,7 @@ internal static class GroupAssignment
     }
 
     /// <summary>cos(arccos l + θ): the least cosine to a centroid that moved by θ, clamped at −1 past the antipode.</summary>
+    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
     private static double MovedLowerBound(double l, double cos, double sin)
     {
         if (sin == 0)
@@ -382,6 +383,7 @@ internal static class GroupAssignment
     }
 
     /// <summary>cos(max(0, arccos u − θ)): the largest cosine to centroids that moved by at most θ.</summary>
+    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
     private static double MovedUpperBound(double u, double cos, double sin)
     {
         if (sin == 0)
@@ -427,6 +429,7 @@ internal static class GroupAssignment
     /// Like <see cref="Place"/>, and also keeps the row's near centroids (its top NearCount, ties to the lower
     /// index, so the first is the argmax) and the next score as the bound on all the others.
     /// </summary>
+    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
     private static bool PlaceTracked(ClusteringWorkspace ws, AssignmentBounds bounds, int i, ReadOnlySpan<float> rowScores)
     {
         const int near = AssignmentBounds.NearCount;
@@ -464,6 +467,7 @@ internal static class GroupAssignment
             : Record(ws, i, top[0], topScores[0], top[1], topScores[1]);
     }
 
+    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
     private static bool Record(ClusteringWorkspace ws, int i, int best, float bestScore, int second, float secondScore)
     {
         bool changed = ws.Assignments[i] != best;

@@ -60,6 +60,7 @@ internal sealed class CentroidPanel
     public int Offset(int panel) => panel * PanelColumns * D;
 
     /// <summary>Packs rows source[rowIndices[j]] (row-major, d values each) as columns j = 0 .. K − 1.</summary>
+    [System.Runtime.CompilerServices.MethodImpl(System.Runtime.CompilerServices.MethodImplOptions.AggressiveOptimization)]
     public void PackRows(ReadOnlySpan<float> source, ReadOnlySpan<int> rowIndices)
     {
         if (rowIndices.Length != K)
@@ -84,6 +85,7 @@ internal sealed class CentroidPanel
     }
 
     /// <summary>Repacks row-major centroids k × d.</summary>
+    [System.Runtime.CompilerServices.MethodImpl(System.Runtime.CompilerServices.MethodImplOptions.AggressiveOptimization)]
     public void Pack(ReadOnlySpan<float> centroids)
     {
         if (centroids.Length != K * D)

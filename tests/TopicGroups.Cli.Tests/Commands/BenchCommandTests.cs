@@ -149,6 +149,33 @@ public sealed class BenchCommandTests : IDisposable
     }
 
     [Fact]
+    public async Task Bench_MiniBatch_StepsCountedAsIterationsAndGroupsFound()
+    {
+        (string path, float[] values) = WriteGroups("groups.npy");
+
+        var (exitCode, output, error) = await CliRun.RunAsync(
+            _unused.Call, "bench", "--embeddings", path, "--groups", "4", "--iterations", "6", "--mini-batch", "50", "--restarts", "3");
+
+        Assert.True(exitCode == 0, error);
+        JsonElement json = SingleJsonLine(output);
+        Assert.Equal(50, json.GetProperty("mini_batch").GetInt32());
+        Assert.Equal(6, json.GetProperty("iterations").GetInt32());
+        Assert.Equal(TruePartitionObjective(values), json.GetProperty("objective").GetDouble(), 5);
+    }
+
+    [Fact]
+    public async Task Bench_MiniBatchThroughService_ExitsTwoSayingWhy()
+    {
+        (string path, _) = WriteGroups("groups.npy");
+
+        var (exitCode, _, error) = await CliRun.RunAsync(
+            _unused.Call, "bench", "--embeddings", path, "--groups", "4", "--mini-batch", "50", "--through-service");
+
+        Assert.Equal(2, exitCode);
+        Assert.Contains("--mini-batch is an in-process option", error);
+    }
+
+    [Fact]
     public async Task Bench_MoreGroupsThanRows_ExitsTwoNamingGroups()
     {
         (string path, _) = WriteGroups("groups.npy");
