@@ -12,7 +12,7 @@ namespace TopicGroups.Cli.Output;
 /// </summary>
 internal static class JsonResultWriter
 {
-    private static readonly JsonWriterOptions WriterOptions = new()
+    internal static readonly JsonWriterOptions WriterOptions = new()
     {
         Indented = true,
         // Files, not HTML: keep accents, quotes and symbols readable instead of \u-escaping them.
@@ -72,25 +72,7 @@ internal static class JsonResultWriter
         json.WriteStartArray("documents");
         foreach (DocumentPlacement placement in response.Documents)
         {
-            json.WriteStartObject();
-            json.WriteString("id", placement.DocumentId);
-            json.WriteNumber("group", placement.GroupId);
-            json.WriteNumber("similarity", placement.Similarity);
-            json.WriteNumber("margin", placement.Margin);
-            // The contract sends 0 when there is no runner-up (one group); JSON says so with null.
-            if (placement.RunnerUpGroupId > 0)
-            {
-                json.WriteNumber("runner_up_group", placement.RunnerUpGroupId);
-            }
-            else
-            {
-                json.WriteNull("runner_up_group");
-            }
-
-            json.WriteNumber("runner_up_similarity", placement.RunnerUpSimilarity);
-
-            json.WriteBoolean("outlier", placement.IsOutlier);
-            json.WriteEndObject();
+            WritePlacement(json, placement);
         }
 
         json.WriteEndArray();
@@ -99,6 +81,29 @@ internal static class JsonResultWriter
     }
 
     // 0 in the request means "server default"; JSON shows that as null rather than a fake 0.
+    /// <summary>One document's placement, as both <c>group</c> and <c>route</c> write it.</summary>
+    internal static void WritePlacement(Utf8JsonWriter json, DocumentPlacement placement)
+    {
+        json.WriteStartObject();
+        json.WriteString("id", placement.DocumentId);
+        json.WriteNumber("group", placement.GroupId);
+        json.WriteNumber("similarity", placement.Similarity);
+        json.WriteNumber("margin", placement.Margin);
+        // The contract sends 0 when there is no runner-up (one group); JSON says so with null.
+        if (placement.RunnerUpGroupId > 0)
+        {
+            json.WriteNumber("runner_up_group", placement.RunnerUpGroupId);
+        }
+        else
+        {
+            json.WriteNull("runner_up_group");
+        }
+
+        json.WriteNumber("runner_up_similarity", placement.RunnerUpSimilarity);
+        json.WriteBoolean("outlier", placement.IsOutlier);
+        json.WriteEndObject();
+    }
+
     private static void WriteOptions(Utf8JsonWriter json, GroupingOptions options)
     {
         json.WriteStartObject("options");
