@@ -119,7 +119,7 @@ internal static class QuickMeasurements
     /// Variants of a fit on one matrix, interleaved (for each seed, every variant in turn) so that load drift on a
     /// shared machine hits them alike: median wall and process CPU seconds, seeding seconds, final reassigned
     /// objective. A variant name holds tokens: "plain" (k-means++ without candidates), "all" (seed on every row),
-    /// "noprune" (every pass scores every row).
+    /// "noprune" (every pass scores every row), "force" (prune whatever k and however far centroids move).
     /// </summary>
     public static void Study(EmbeddingMatrix matrix, int k, int iterations, ulong seeds, int threads)
     {
@@ -140,6 +140,7 @@ internal static class QuickMeasurements
                     SeedOnEveryRow = variant.Contains("all"),
                     SeedCandidates = variant.Contains("plain") ? 1 : 0,
                     DisablePruning = variant.Contains("noprune"),
+                    ForcePruning = variant.Contains("force"),
                     SeedingSampleRowsPerGroup = variant.Contains("per") ? int.Parse(variant[(variant.IndexOf("per") + 3)..].Split('-')[0]) : SeedingPool.SampleRowsPerGroup,
                 };
                 options = StudyOptions(options, variant);
