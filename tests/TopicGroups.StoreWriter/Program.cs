@@ -21,7 +21,7 @@ internal static class StoreWriterProgram
         string name = args[2];
         for (int version = 1; ; version++)
         {
-            await store.SaveAsync(StoreWriterVersions.Make(name, version), replace: true, CancellationToken.None);
+            await store.SaveAsync(StoreWriterVersions.Tenant, StoreWriterVersions.Make(name, version), replace: true, CancellationToken.None);
             Console.Out.WriteLine($"saved {version}");
             Console.Out.Flush();
         }
@@ -31,6 +31,9 @@ internal static class StoreWriterProgram
 /// <summary>The versions the writer saves, and the check a reader applies.</summary>
 public static class StoreWriterVersions
 {
+    /// <summary>The tenant the writer saves for (not the default one, so tenant scoping is crash-tested too).</summary>
+    public const string Tenant = "support-desk";
+
     public const int GroupCount = 300;
     public const int Dimensions = 384;
 

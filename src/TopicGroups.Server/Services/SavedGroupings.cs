@@ -12,7 +12,9 @@ namespace TopicGroups.Server.Services;
 
 /// <summary>What a grouping request asks beyond the grouping itself: a reference to continue, a name to save under.</summary>
 /// <param name="Input">The batch; with a warm start, its options carry the reference's centres.</param>
+/// <param name="Tenant">The caller's tenant: the reference came from it and the save goes to it.</param>
 internal sealed record GroupingPlan(
+    string Tenant,
     GroupingInput Input,
     SavedGrouping? Reference,
     double MinimumMatchSimilarity,
@@ -23,6 +25,7 @@ internal sealed record GroupingPlan(
 /// <summary>
 /// The saved-grouping steps of the service: checks names and options, loads references, applies continuity,
 /// saves, routes, gets, lists and deletes. Store failures become UNAVAILABLE; unknown names NOT_FOUND.
+/// Every step acts within the caller's tenant only; another tenant's grouping answers exactly like a missing one.
 /// </summary>
 internal sealed class SavedGroupings(IGroupingStore store, TimeProvider time, IOptions<TopicGroupsLimits> limits, ILogger<SavedGroupings> logger)
 {
@@ -32,7 +35,7 @@ internal sealed class SavedGroupings(IGroupingStore store, TimeProvider time, IO
     private readonly TopicGroupsLimits _limits = limits.Value;
 
     /// <summary>Checks the save and reference options and loads the reference, before any computing starts.</summary>
-    public async Task<GroupingPlan> PrepareAsync(Proto.GroupingOptions options, GroupingInput input, CancellationToken cancellationToken)
+    public async Task<GroupingPlan> PrepareAsync(string tenant, Proto.GroupingOptions options, GroupingInput input, CancellationToken cancellationToken)
     {
         string? saveId = null;
         if (options.SaveAs.Length > 0)
@@ -71,7 +74,7 @@ internal sealed class SavedGroupings(IGroupingStore store, TimeProvider time, IO
         if (hasReference)
         {
             string referenceId = GroupingNames.ParseName(options.Reference, "options.reference");
-            reference = await LoadAsync(referenceId, cancellationToken);
+            reference = await LoadAsync(tenant, referenceId, cancellationToken);
             int d = input.Embeddings.Dimensions;
             if (reference.Snapshot.Dimensions != d)
             {
@@ -109,12 +112,12 @@ internal sealed class SavedGroupings(IGroupingStore store, TimeProvider time, IO
         }
 
         // Fail before computing when the name is taken; the save itself checks again (another call may be quicker).
-        if (saveId is not null && !options.ReplaceSaved && await StoreAsync(() => store.ExistsAsync(saveId, cancellationToken)))
+        if (saveId is not null && !options.ReplaceSaved && await StoreAsync(() => store.ExistsAsync(tenant, saveId, cancellationToken)))
         {
             throw AlreadyExists(saveId);
         }
 
-        return new GroupingPlan(input, reference, minimum, options.WarmStart, saveId, options.ReplaceSaved);
+        return new GroupingPlan(tenant, input, reference, minimum, options.WarmStart, saveId, options.ReplaceSaved);
     }
 
     /// <summary>Applies continuity when a reference was named, saves when asked, and builds the reply.</summary>
@@ -139,7 +142,7 @@ internal sealed class SavedGroupings(IGroupingStore store, TimeProvider time, IO
             {
                 await StoreAsync(async () =>
                 {
-                    await store.SaveAsync(saved, plan.Replace, cancellationToken);
+                    await store.SaveAsync(plan.Tenant, saved, plan.Replace, cancellationToken);
                     return true;
                 });
             }
@@ -154,14 +157,14 @@ internal sealed class SavedGroupings(IGroupingStore store, TimeProvider time, IO
         return response;
     }
 
-    public async Task<Proto.Grouping> GetAsync(Proto.GetGroupingRequest request, CancellationToken cancellationToken)
+    public async Task<Proto.Grouping> GetAsync(string tenant, Proto.GetGroupingRequest request, CancellationToken cancellationToken)
     {
         string id = GroupingNames.ParseName(request.Name, "name");
-        SavedGrouping grouping = await LoadAsync(id, cancellationToken);
+        SavedGrouping grouping = await LoadAsync(tenant, id, cancellationToken);
         return SavedGroupingMapper.ToProto(grouping, request.View);
     }
 
-    public async Task<Proto.ListGroupingsResponse> ListAsync(Proto.ListGroupingsRequest request, CancellationToken cancellationToken)
+    public async Task<Proto.ListGroupingsResponse> ListAsync(string tenant, Proto.ListGroupingsRequest request, CancellationToken cancellationToken)
     {
         if (request.PageSize < 0 || request.PageSize > MaxPageSize)
         {
@@ -171,7 +174,7 @@ internal sealed class SavedGroupings(IGroupingStore store, TimeProvider time, IO
 
         GroupingPageToken? after = SavedGroupingMapper.FromPageToken(request.PageToken);
         int pageSize = request.PageSize == 0 ? DefaultPageSize : request.PageSize;
-        GroupingPage page = await StoreAsync(() => store.ListAsync(pageSize, after, cancellationToken));
+        GroupingPage page = await StoreAsync(() => store.ListAsync(tenant, pageSize, after, cancellationToken));
         var response = new Proto.ListGroupingsResponse
         {
             NextPageToken = page.Next is GroupingPageToken next ? SavedGroupingMapper.ToPageToken(next) : string.Empty,
@@ -180,16 +183,16 @@ internal sealed class SavedGroupings(IGroupingStore store, TimeProvider time, IO
         return response;
     }
 
-    public async Task DeleteAsync(Proto.DeleteGroupingRequest request, CancellationToken cancellationToken)
+    public async Task DeleteAsync(string tenant, Proto.DeleteGroupingRequest request, CancellationToken cancellationToken)
     {
         string id = GroupingNames.ParseName(request.Name, "name");
-        if (!await StoreAsync(() => store.DeleteAsync(id, cancellationToken)))
+        if (!await StoreAsync(() => store.DeleteAsync(tenant, id, cancellationToken)))
         {
             throw NotFound(id);
         }
     }
 
-    public async Task<Proto.RouteDocumentsResponse> RouteAsync(Proto.RouteDocumentsRequest request, CancellationToken cancellationToken)
+    public async Task<Proto.RouteDocumentsResponse> RouteAsync(string tenant, Proto.RouteDocumentsRequest request, CancellationToken cancellationToken)
     {
         string id = GroupingNames.ParseName(request.Grouping, "grouping");
         if (request.Documents.Count == 0)
@@ -197,11 +200,12 @@ internal sealed class SavedGroupings(IGroupingStore store, TimeProvider time, IO
             throw StatusErrors.InvalidArgument("documents", "is empty; send at least one document (an id and an embedding) to route.");
         }
 
-        SavedGrouping grouping = await LoadAsync(id, cancellationToken);
+        SavedGrouping grouping = await LoadAsync(tenant, id, cancellationToken);
         return Route(grouping, request.Documents, prefix: string.Empty, chunkIndex: 0, cancellationToken);
     }
 
     public async Task StreamRouteAsync(
+        string tenant,
         IAsyncStreamReader<Proto.StreamRouteDocumentsRequest> requests,
         IServerStreamWriter<Proto.RouteDocumentsResponse> responses,
         CancellationToken cancellationToken)
@@ -219,7 +223,7 @@ internal sealed class SavedGroupings(IGroupingStore store, TimeProvider time, IO
 
             if (expected == 0)
             {
-                grouping = await LoadAsync(GroupingNames.ParseName(chunk.Grouping, "grouping"), cancellationToken);
+                grouping = await LoadAsync(tenant, GroupingNames.ParseName(chunk.Grouping, "grouping"), cancellationToken);
             }
             else if (chunk.Grouping.Length > 0)
             {
@@ -244,8 +248,8 @@ internal sealed class SavedGroupings(IGroupingStore store, TimeProvider time, IO
         return SavedGroupingMapper.ToProto(routed, ids, chunkIndex);
     }
 
-    private async Task<SavedGrouping> LoadAsync(string id, CancellationToken cancellationToken) =>
-        await StoreAsync(() => store.GetAsync(id, cancellationToken)) ?? throw NotFound(id);
+    private async Task<SavedGrouping> LoadAsync(string tenant, string id, CancellationToken cancellationToken) =>
+        await StoreAsync(() => store.GetAsync(tenant, id, cancellationToken)) ?? throw NotFound(id);
 
     /// <summary>Runs a store call; a database that cannot be reached or read becomes UNAVAILABLE (and is logged).</summary>
     private async Task<T> StoreAsync<T>(Func<Task<T>> call)

@@ -4,6 +4,7 @@ using Microsoft.Extensions.Options;
 using TopicGroups.Core.Grouping;
 using TopicGroups.Server.Embedding;
 using TopicGroups.Server.Mapping;
+using TopicGroups.Server.Security;
 using TopicGroups.Server.Validation;
 using Proto = TopicGroups.Protos.V1;
 
@@ -20,7 +21,7 @@ internal sealed class TopicGroupsGrpcService(GroupingRunner runner, SavedGroupin
         ServerCallContext context)
     {
         GroupingInput input = RequestValidator.ToInput(request, _limits, embedding, out TextsToEmbed? texts);   // INVALID_ARGUMENT / RESOURCE_EXHAUSTED
-        GroupingPlan plan = await saved.PrepareAsync(request.Options, input, context.CancellationToken);   // reference, save name
+        GroupingPlan plan = await saved.PrepareAsync(CallerTenant.Of(context), request.Options, input, context.CancellationToken);   // reference, save name
         GroupingResult result = await runner.RunAsync(plan.Input, progress: null, context, texts);
         Proto.GroupDocumentsResponse response = await saved.CompleteAsync(plan, result, context.CancellationToken);
         if (texts?.Run is EmbeddingRun run)
@@ -52,7 +53,7 @@ internal sealed class TopicGroupsGrpcService(GroupingRunner runner, SavedGroupin
         }
 
         GroupingInput input = validator.ToInput();   // options are present once this returns
-        GroupingPlan plan = await saved.PrepareAsync(options!, input, cancellationToken);
+        GroupingPlan plan = await saved.PrepareAsync(CallerTenant.Of(context), options!, input, cancellationToken);
         var relay = new ProgressRelay(responseStream, cancellationToken);
         GroupingResult result;
         try
@@ -74,23 +75,23 @@ internal sealed class TopicGroupsGrpcService(GroupingRunner runner, SavedGroupin
     }
 
     public override Task<Proto.Grouping> GetGrouping(Proto.GetGroupingRequest request, ServerCallContext context) =>
-        saved.GetAsync(request, context.CancellationToken);
+        saved.GetAsync(CallerTenant.Of(context), request, context.CancellationToken);
 
     public override Task<Proto.ListGroupingsResponse> ListGroupings(Proto.ListGroupingsRequest request, ServerCallContext context) =>
-        saved.ListAsync(request, context.CancellationToken);
+        saved.ListAsync(CallerTenant.Of(context), request, context.CancellationToken);
 
     public override async Task<Empty> DeleteGrouping(Proto.DeleteGroupingRequest request, ServerCallContext context)
     {
-        await saved.DeleteAsync(request, context.CancellationToken);
+        await saved.DeleteAsync(CallerTenant.Of(context), request, context.CancellationToken);
         return new Empty();
     }
 
     public override Task<Proto.RouteDocumentsResponse> RouteDocuments(Proto.RouteDocumentsRequest request, ServerCallContext context) =>
-        saved.RouteAsync(request, context.CancellationToken);
+        saved.RouteAsync(CallerTenant.Of(context), request, context.CancellationToken);
 
     public override Task StreamRouteDocuments(
         IAsyncStreamReader<Proto.StreamRouteDocumentsRequest> requestStream,
         IServerStreamWriter<Proto.RouteDocumentsResponse> responseStream,
         ServerCallContext context) =>
-        saved.StreamRouteAsync(requestStream, responseStream, context.CancellationToken);
+        saved.StreamRouteAsync(CallerTenant.Of(context), requestStream, responseStream, context.CancellationToken);
 }

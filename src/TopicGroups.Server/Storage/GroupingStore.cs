@@ -32,21 +32,23 @@ public sealed class GroupingExistsException(string id)
 /// Saved groupings. Two implementations, run against one contract test suite: SQLite (embedded, the default)
 /// and PostgreSQL (shared by several server replicas). Every save is one transaction: readers see the old
 /// grouping or the new one, never a mix, also after a crash mid-save.
+/// Every call acts within one tenant (the caller's, see Security/CallerTenant): ids are unique per tenant, and
+/// another tenant's groupings are invisible, exactly as if they did not exist.
 /// </summary>
 public interface IGroupingStore
 {
     /// <summary>Saves <paramref name="grouping"/>; with <paramref name="replace"/> an existing one of that id is replaced.</summary>
-    /// <exception cref="GroupingExistsException">The id is taken and <paramref name="replace"/> is false.</exception>
-    Task SaveAsync(SavedGrouping grouping, bool replace, CancellationToken cancellationToken);
+    /// <exception cref="GroupingExistsException">The id is taken in this tenant and <paramref name="replace"/> is false.</exception>
+    Task SaveAsync(string tenant, SavedGrouping grouping, bool replace, CancellationToken cancellationToken);
 
-    /// <summary>The grouping, or null when none has that id.</summary>
-    Task<SavedGrouping?> GetAsync(string id, CancellationToken cancellationToken);
+    /// <summary>The grouping, or null when the tenant has none with that id.</summary>
+    Task<SavedGrouping?> GetAsync(string tenant, string id, CancellationToken cancellationToken);
 
-    Task<bool> ExistsAsync(string id, CancellationToken cancellationToken);
+    Task<bool> ExistsAsync(string tenant, string id, CancellationToken cancellationToken);
 
-    /// <summary>Up to <paramref name="pageSize"/> groupings after <paramref name="after"/> (null: from the newest).</summary>
-    Task<GroupingPage> ListAsync(int pageSize, GroupingPageToken? after, CancellationToken cancellationToken);
+    /// <summary>Up to <paramref name="pageSize"/> of the tenant's groupings after <paramref name="after"/> (null: from the newest).</summary>
+    Task<GroupingPage> ListAsync(string tenant, int pageSize, GroupingPageToken? after, CancellationToken cancellationToken);
 
-    /// <summary>True when a grouping was deleted, false when none had that id.</summary>
-    Task<bool> DeleteAsync(string id, CancellationToken cancellationToken);
+    /// <summary>True when a grouping was deleted, false when the tenant had none with that id.</summary>
+    Task<bool> DeleteAsync(string tenant, string id, CancellationToken cancellationToken);
 }

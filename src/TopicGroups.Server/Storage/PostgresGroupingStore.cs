@@ -42,6 +42,18 @@ public sealed class PostgresGroupingStore : SqlGroupingStore, IAsyncDisposable
           examples_json TEXT NOT NULL,
           PRIMARY KEY (grouping_name, position));
         """,
+
+        // Version 2: a tenant leads both keys; rows saved before tenants existed belong to the default tenant.
+        $"""
+        ALTER TABLE topicgroups_groupings ADD COLUMN tenant TEXT NOT NULL DEFAULT '{Security.CallerTenant.Default}';
+        ALTER TABLE topicgroups_groupings ALTER COLUMN tenant DROP DEFAULT;
+        ALTER TABLE topicgroups_groupings DROP CONSTRAINT topicgroups_groupings_pkey, ADD PRIMARY KEY (tenant, name);
+        DROP INDEX topicgroups_groupings_by_time;
+        CREATE INDEX topicgroups_groupings_by_time ON topicgroups_groupings (tenant, created_at_us DESC, name);
+        ALTER TABLE topicgroups_groups ADD COLUMN tenant TEXT NOT NULL DEFAULT '{Security.CallerTenant.Default}';
+        ALTER TABLE topicgroups_groups ALTER COLUMN tenant DROP DEFAULT;
+        ALTER TABLE topicgroups_groups DROP CONSTRAINT topicgroups_groups_pkey, ADD PRIMARY KEY (tenant, grouping_name, position);
+        """,
     ];
 
     private readonly NpgsqlDataSource _dataSource;

@@ -8,6 +8,8 @@ namespace TopicGroups.Server.Storage;
 /// have). Tables: topicgroups_groupings (one row per grouping, centres as a blob) and topicgroups_groups (one row
 /// per group). The schema is created and migrated by the service itself: topicgroups_schema_version holds the
 /// version reached, and each pending step runs in one transaction under the store's write lock.
+/// Both tables lead with a tenant column (schema version 2): names are unique per tenant and every statement
+/// filters on the caller's tenant, so no query can see or touch another tenant's rows.
 /// </summary>
 public abstract class SqlGroupingStore : IGroupingStore
 {
@@ -29,8 +31,9 @@ public abstract class SqlGroupingStore : IGroupingStore
     /// <summary>The schema version this build writes.</summary>
     public int SchemaVersion => SchemaSteps.Count;
 
-    public async Task SaveAsync(SavedGrouping grouping, bool replace, CancellationToken cancellationToken)
+    public async Task SaveAsync(string tenant, SavedGrouping grouping, bool replace, CancellationToken cancellationToken)
     {
+        ArgumentException.ThrowIfNullOrWhiteSpace(tenant);
         ArgumentNullException.ThrowIfNull(grouping);
         GroupingSnapshot snapshot = grouping.Snapshot;
         await using DbConnection connection = await OpenReadyAsync(cancellationToken);
@@ -39,23 +42,24 @@ public abstract class SqlGroupingStore : IGroupingStore
         // The parent row first: with replace it takes the row lock (PostgreSQL) so concurrent replacers queue here.
         string conflict = replace
             ? """
-              ON CONFLICT (name) DO UPDATE SET created_at_us = excluded.created_at_us, group_count = excluded.group_count,
+              ON CONFLICT (tenant, name) DO UPDATE SET created_at_us = excluded.created_at_us, group_count = excluded.group_count,
                 document_count = excluded.document_count, dimensions = excluded.dimensions, objective = excluded.objective,
                 highest_group_id = excluded.highest_group_id, outlier_score_threshold = excluded.outlier_score_threshold,
                 outlier_minimum_group_size = excluded.outlier_minimum_group_size, options_json = excluded.options_json,
                 centroids = excluded.centroids
               """
-            : "ON CONFLICT (name) DO NOTHING";
+            : "ON CONFLICT (tenant, name) DO NOTHING";
         int inserted = await ExecuteAsync(
             connection,
             transaction,
             $"""
-            INSERT INTO topicgroups_groupings (name, created_at_us, group_count, document_count, dimensions, objective,
+            INSERT INTO topicgroups_groupings (tenant, name, created_at_us, group_count, document_count, dimensions, objective,
               highest_group_id, outlier_score_threshold, outlier_minimum_group_size, options_json, centroids)
-            VALUES (@name, @created, @groups, @documents, @dimensions, @objective, @highest, @threshold, @minimum, @options, @centroids)
+            VALUES (@tenant, @name, @created, @groups, @documents, @dimensions, @objective, @highest, @threshold, @minimum, @options, @centroids)
             {conflict}
             """,
             cancellationToken,
+            ("tenant", tenant),
             ("name", grouping.Id),
             ("created", ToMicroseconds(grouping.CreatedAt)),
             ("groups", snapshot.Groups.Count),
@@ -73,30 +77,32 @@ public abstract class SqlGroupingStore : IGroupingStore
             throw new GroupingExistsException(grouping.Id);
         }
 
-        await ExecuteAsync(connection, transaction, "DELETE FROM topicgroups_groups WHERE grouping_name = @name", cancellationToken, ("name", grouping.Id));
+        await ExecuteAsync(
+            connection, transaction, "DELETE FROM topicgroups_groups WHERE tenant = @tenant AND grouping_name = @name", cancellationToken, ("tenant", tenant), ("name", grouping.Id));
         await using (DbCommand insertGroup = connection.CreateCommand())
         {
             insertGroup.Transaction = transaction;
             insertGroup.CommandText = """
-                INSERT INTO topicgroups_groups (grouping_name, position, group_id, size, cohesion, outlier_count,
+                INSERT INTO topicgroups_groups (tenant, grouping_name, position, group_id, size, cohesion, outlier_count,
                   similarity_median, similarity_mad, terms_json, examples_json)
-                VALUES (@name, @position, @id, @size, @cohesion, @outliers, @median, @mad, @terms, @examples)
+                VALUES (@tenant, @name, @position, @id, @size, @cohesion, @outliers, @median, @mad, @terms, @examples)
                 """;
-            string[] names = ["name", "position", "id", "size", "cohesion", "outliers", "median", "mad", "terms", "examples"];
+            string[] names = ["tenant", "name", "position", "id", "size", "cohesion", "outliers", "median", "mad", "terms", "examples"];
             DbParameter[] parameters = names.Select(name => AddParameter(insertGroup, name, null)).ToArray();
-            parameters[0].Value = grouping.Id;
+            parameters[0].Value = tenant;
+            parameters[1].Value = grouping.Id;
             for (int position = 0; position < snapshot.Groups.Count; position++)
             {
                 SnapshotGroup group = snapshot.Groups[position];
-                parameters[1].Value = position;
-                parameters[2].Value = group.Id;
-                parameters[3].Value = group.Size;
-                parameters[4].Value = group.Cohesion;
-                parameters[5].Value = group.OutlierCount;
-                parameters[6].Value = group.SimilarityMedian;
-                parameters[7].Value = group.SimilarityMad;
-                parameters[8].Value = SnapshotEncoding.EncodeTerms(group.Terms);
-                parameters[9].Value = SnapshotEncoding.EncodeExamples(group.Examples);
+                parameters[2].Value = position;
+                parameters[3].Value = group.Id;
+                parameters[4].Value = group.Size;
+                parameters[5].Value = group.Cohesion;
+                parameters[6].Value = group.OutlierCount;
+                parameters[7].Value = group.SimilarityMedian;
+                parameters[8].Value = group.SimilarityMad;
+                parameters[9].Value = SnapshotEncoding.EncodeTerms(group.Terms);
+                parameters[10].Value = SnapshotEncoding.EncodeExamples(group.Examples);
                 await insertGroup.ExecuteNonQueryAsync(cancellationToken);
             }
         }
@@ -104,8 +110,9 @@ public abstract class SqlGroupingStore : IGroupingStore
         await transaction.CommitAsync(cancellationToken);
     }
 
-    public async Task<SavedGrouping?> GetAsync(string id, CancellationToken cancellationToken)
+    public async Task<SavedGrouping?> GetAsync(string tenant, string id, CancellationToken cancellationToken)
     {
+        ArgumentException.ThrowIfNullOrWhiteSpace(tenant);
         await using DbConnection connection = await OpenReadyAsync(cancellationToken);
 
         // Parent and groups in one transaction, so a concurrent replace is seen whole or not at all.
@@ -118,7 +125,8 @@ public abstract class SqlGroupingStore : IGroupingStore
         await using (DbCommand command = Command(
             connection,
             transaction,
-            $"SELECT {SummaryColumns}, highest_group_id, outlier_score_threshold, outlier_minimum_group_size, centroids FROM topicgroups_groupings WHERE name = @name",
+            $"SELECT {SummaryColumns}, highest_group_id, outlier_score_threshold, outlier_minimum_group_size, centroids FROM topicgroups_groupings WHERE tenant = @tenant AND name = @name",
+            ("tenant", tenant),
             ("name", id)))
         await using (DbDataReader reader = await command.ExecuteReaderAsync(cancellationToken))
         {
@@ -140,8 +148,9 @@ public abstract class SqlGroupingStore : IGroupingStore
             transaction,
             """
             SELECT group_id, size, cohesion, outlier_count, terms_json, examples_json, similarity_median, similarity_mad
-            FROM topicgroups_groups WHERE grouping_name = @name ORDER BY position
+            FROM topicgroups_groups WHERE tenant = @tenant AND grouping_name = @name ORDER BY position
             """,
+            ("tenant", tenant),
             ("name", id)))
         await using (DbDataReader reader = await command.ExecuteReaderAsync(cancellationToken))
         {
@@ -179,22 +188,26 @@ public abstract class SqlGroupingStore : IGroupingStore
         return new SavedGrouping(summary.Id, summary.CreatedAt, snapshot, summary.Options);
     }
 
-    public async Task<bool> ExistsAsync(string id, CancellationToken cancellationToken)
+    public async Task<bool> ExistsAsync(string tenant, string id, CancellationToken cancellationToken)
     {
+        ArgumentException.ThrowIfNullOrWhiteSpace(tenant);
         await using DbConnection connection = await OpenReadyAsync(cancellationToken);
-        await using DbCommand command = Command(connection, null, "SELECT 1 FROM topicgroups_groupings WHERE name = @name", ("name", id));
+        await using DbCommand command = Command(
+            connection, null, "SELECT 1 FROM topicgroups_groupings WHERE tenant = @tenant AND name = @name", ("tenant", tenant), ("name", id));
         return await command.ExecuteScalarAsync(cancellationToken) is not null;
     }
 
-    public async Task<GroupingPage> ListAsync(int pageSize, GroupingPageToken? after, CancellationToken cancellationToken)
+    public async Task<GroupingPage> ListAsync(string tenant, int pageSize, GroupingPageToken? after, CancellationToken cancellationToken)
     {
+        ArgumentException.ThrowIfNullOrWhiteSpace(tenant);
         ArgumentOutOfRangeException.ThrowIfNegativeOrZero(pageSize);
         await using DbConnection connection = await OpenReadyAsync(cancellationToken);
-        string where = after is null ? string.Empty : "WHERE created_at_us < @created OR (created_at_us = @created AND name > @name)";
+        string afterClause = after is null ? string.Empty : "AND (created_at_us < @created OR (created_at_us = @created AND name > @name))";
         await using DbCommand command = Command(
             connection,
             null,
-            $"SELECT {SummaryColumns} FROM topicgroups_groupings {where} ORDER BY created_at_us DESC, name ASC LIMIT @limit",
+            $"SELECT {SummaryColumns} FROM topicgroups_groupings WHERE tenant = @tenant {afterClause} ORDER BY created_at_us DESC, name ASC LIMIT @limit",
+            ("tenant", tenant),
             ("limit", pageSize + 1));
         if (after is GroupingPageToken token)
         {
@@ -222,12 +235,15 @@ public abstract class SqlGroupingStore : IGroupingStore
         return new GroupingPage(page, next);
     }
 
-    public async Task<bool> DeleteAsync(string id, CancellationToken cancellationToken)
+    public async Task<bool> DeleteAsync(string tenant, string id, CancellationToken cancellationToken)
     {
+        ArgumentException.ThrowIfNullOrWhiteSpace(tenant);
         await using DbConnection connection = await OpenReadyAsync(cancellationToken);
         await using DbTransaction transaction = await BeginWriteAsync(connection, forMigration: false, cancellationToken);
-        await ExecuteAsync(connection, transaction, "DELETE FROM topicgroups_groups WHERE grouping_name = @name", cancellationToken, ("name", id));
-        int deleted = await ExecuteAsync(connection, transaction, "DELETE FROM topicgroups_groupings WHERE name = @name", cancellationToken, ("name", id));
+        await ExecuteAsync(
+            connection, transaction, "DELETE FROM topicgroups_groups WHERE tenant = @tenant AND grouping_name = @name", cancellationToken, ("tenant", tenant), ("name", id));
+        int deleted = await ExecuteAsync(
+            connection, transaction, "DELETE FROM topicgroups_groupings WHERE tenant = @tenant AND name = @name", cancellationToken, ("tenant", tenant), ("name", id));
         await transaction.CommitAsync(cancellationToken);
         return deleted > 0;
     }

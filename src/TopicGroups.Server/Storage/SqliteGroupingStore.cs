@@ -40,6 +40,51 @@ public sealed class SqliteGroupingStore : SqlGroupingStore
           examples_json TEXT NOT NULL,
           PRIMARY KEY (grouping_name, position));
         """,
+
+        // Version 2: a tenant leads both keys. SQLite cannot change a primary key in place, so each table is
+        // rebuilt; rows saved before tenants existed belong to the default tenant.
+        $"""
+        CREATE TABLE topicgroups_groupings_v2 (
+          tenant TEXT NOT NULL,
+          name TEXT NOT NULL,
+          created_at_us INTEGER NOT NULL,
+          group_count INTEGER NOT NULL,
+          document_count INTEGER NOT NULL,
+          dimensions INTEGER NOT NULL,
+          objective REAL NOT NULL,
+          highest_group_id INTEGER NOT NULL,
+          outlier_score_threshold REAL NOT NULL,
+          outlier_minimum_group_size INTEGER NOT NULL,
+          options_json TEXT NOT NULL,
+          centroids BLOB NOT NULL,
+          PRIMARY KEY (tenant, name));
+        INSERT INTO topicgroups_groupings_v2 (tenant, name, created_at_us, group_count, document_count, dimensions, objective,
+          highest_group_id, outlier_score_threshold, outlier_minimum_group_size, options_json, centroids)
+        SELECT '{Security.CallerTenant.Default}', name, created_at_us, group_count, document_count, dimensions, objective,
+          highest_group_id, outlier_score_threshold, outlier_minimum_group_size, options_json, centroids FROM topicgroups_groupings;
+        DROP TABLE topicgroups_groupings;
+        ALTER TABLE topicgroups_groupings_v2 RENAME TO topicgroups_groupings;
+        CREATE INDEX topicgroups_groupings_by_time ON topicgroups_groupings (tenant, created_at_us DESC, name);
+        CREATE TABLE topicgroups_groups_v2 (
+          tenant TEXT NOT NULL,
+          grouping_name TEXT NOT NULL,
+          position INTEGER NOT NULL,
+          group_id INTEGER NOT NULL,
+          size INTEGER NOT NULL,
+          cohesion REAL NOT NULL,
+          outlier_count INTEGER NOT NULL,
+          similarity_median REAL NOT NULL,
+          similarity_mad REAL NOT NULL,
+          terms_json TEXT NOT NULL,
+          examples_json TEXT NOT NULL,
+          PRIMARY KEY (tenant, grouping_name, position));
+        INSERT INTO topicgroups_groups_v2 (tenant, grouping_name, position, group_id, size, cohesion, outlier_count,
+          similarity_median, similarity_mad, terms_json, examples_json)
+        SELECT '{Security.CallerTenant.Default}', grouping_name, position, group_id, size, cohesion, outlier_count,
+          similarity_median, similarity_mad, terms_json, examples_json FROM topicgroups_groups;
+        DROP TABLE topicgroups_groups;
+        ALTER TABLE topicgroups_groups_v2 RENAME TO topicgroups_groups;
+        """,
     ];
 
     private readonly string _connectionString;

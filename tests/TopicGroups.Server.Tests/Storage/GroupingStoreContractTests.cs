@@ -1,3 +1,4 @@
+using System.Data.Common;
 using System.Diagnostics;
 using TopicGroups.Core.Grouping;
 using TopicGroups.Core.Terms;
@@ -20,6 +21,23 @@ public abstract class GroupingStoreContractTests(ITestOutputHelper output) : IDi
 
     /// <summary>The writer process's arguments for this store: kind and location.</summary>
     protected abstract (string Kind, string Location) WriterTarget();
+
+    /// <summary>A plain connection to the database <see cref="OpenStore"/> uses, to build an old schema by hand.</summary>
+    protected abstract Task<DbConnection> OpenDatabaseAsync();
+
+    /// <summary>
+    /// Schema version 1 in this store's dialect, exactly as the server wrote it before tenants existed (a frozen
+    /// copy: the migration test needs the old schema, not whatever the code writes today).
+    /// </summary>
+    protected abstract string VersionOneSchema { get; }
+
+    /// <summary>The tenant the contract tests work in; the crash-test writer saves for the same one.</summary>
+    protected const string Tenant = StoreWriterVersions.Tenant;
+
+    private const string OtherTenant = "editors";
+
+    /// <summary>The tenant of every call when no API keys are configured, and of groupings saved before tenants (docs/operations.md).</summary>
+    private const string DefaultTenant = "default";
 
     public virtual void Dispose() => GC.SuppressFinalize(this);
 
@@ -80,10 +98,10 @@ public abstract class GroupingStoreContractTests(ITestOutputHelper output) : IDi
         IGroupingStore store = OpenStore();
         SavedGrouping saved = Sample("week-48");
 
-        await store.SaveAsync(saved, replace: false, CancellationToken.None);
+        await store.SaveAsync(Tenant, saved, replace: false, CancellationToken.None);
 
-        AssertSame(saved, await store.GetAsync("week-48", CancellationToken.None));
-        Assert.True(await store.ExistsAsync("week-48", CancellationToken.None));
+        AssertSame(saved, await store.GetAsync(Tenant, "week-48", CancellationToken.None));
+        Assert.True(await store.ExistsAsync(Tenant, "week-48", CancellationToken.None));
     }
 
     [SkippableFact]
@@ -91,8 +109,8 @@ public abstract class GroupingStoreContractTests(ITestOutputHelper output) : IDi
     {
         IGroupingStore store = OpenStore();
 
-        Assert.Null(await store.GetAsync("never-saved", CancellationToken.None));
-        Assert.False(await store.ExistsAsync("never-saved", CancellationToken.None));
+        Assert.Null(await store.GetAsync(Tenant, "never-saved", CancellationToken.None));
+        Assert.False(await store.ExistsAsync(Tenant, "never-saved", CancellationToken.None));
     }
 
     [SkippableFact]
@@ -100,39 +118,139 @@ public abstract class GroupingStoreContractTests(ITestOutputHelper output) : IDi
     {
         IGroupingStore store = OpenStore();
         SavedGrouping first = Sample("tickets", seed: 1);
-        await store.SaveAsync(first, replace: false, CancellationToken.None);
+        await store.SaveAsync(Tenant, first, replace: false, CancellationToken.None);
 
-        var exception = await Assert.ThrowsAsync<GroupingExistsException>(() => store.SaveAsync(Sample("tickets", seed: 2), replace: false, CancellationToken.None));
+        var exception = await Assert.ThrowsAsync<GroupingExistsException>(() => store.SaveAsync(Tenant, Sample("tickets", seed: 2), replace: false, CancellationToken.None));
 
         Assert.Equal("tickets", exception.Id);
-        AssertSame(first, await store.GetAsync("tickets", CancellationToken.None));
+        AssertSame(first, await store.GetAsync(Tenant, "tickets", CancellationToken.None));
     }
 
     [SkippableFact]
     public async Task Save_NameTakenWithReplace_TheNewGroupingWholeAndNothingOfTheOld()
     {
         IGroupingStore store = OpenStore();
-        await store.SaveAsync(Sample("tickets", groups: 6, seed: 1), replace: false, CancellationToken.None);
+        await store.SaveAsync(Tenant, Sample("tickets", groups: 6, seed: 1), replace: false, CancellationToken.None);
         SavedGrouping second = Sample("tickets", groups: 2, dimensions: 7, seed: 2);
 
-        await store.SaveAsync(second, replace: true, CancellationToken.None);
+        await store.SaveAsync(Tenant, second, replace: true, CancellationToken.None);
 
-        AssertSame(second, await store.GetAsync("tickets", CancellationToken.None));
+        AssertSame(second, await store.GetAsync(Tenant, "tickets", CancellationToken.None));
     }
 
     [SkippableFact]
     public async Task Delete_ExistingThenUnknown_TrueThenFalse()
     {
         IGroupingStore store = OpenStore();
-        await store.SaveAsync(Sample("gone-soon"), replace: false, CancellationToken.None);
-        await store.SaveAsync(Sample("stays"), replace: false, CancellationToken.None);
+        await store.SaveAsync(Tenant, Sample("gone-soon"), replace: false, CancellationToken.None);
+        await store.SaveAsync(Tenant, Sample("stays"), replace: false, CancellationToken.None);
 
-        Assert.True(await store.DeleteAsync("gone-soon", CancellationToken.None));
-        Assert.False(await store.DeleteAsync("gone-soon", CancellationToken.None));
+        Assert.True(await store.DeleteAsync(Tenant, "gone-soon", CancellationToken.None));
+        Assert.False(await store.DeleteAsync(Tenant, "gone-soon", CancellationToken.None));
 
-        Assert.Null(await store.GetAsync("gone-soon", CancellationToken.None));
-        Assert.NotNull(await store.GetAsync("stays", CancellationToken.None));
-        await store.SaveAsync(Sample("gone-soon", seed: 5), replace: false, CancellationToken.None);   // the name is free again
+        Assert.Null(await store.GetAsync(Tenant, "gone-soon", CancellationToken.None));
+        Assert.NotNull(await store.GetAsync(Tenant, "stays", CancellationToken.None));
+        await store.SaveAsync(Tenant, Sample("gone-soon", seed: 5), replace: false, CancellationToken.None);   // the name is free again
+    }
+
+    [SkippableFact]
+    public async Task Tenants_SameNameInTwoTenants_EachGetsListsReplacesAndDeletesOnlyItsOwn()
+    {
+        IGroupingStore store = OpenStore();
+        SavedGrouping ours = Sample("weekly", groups: 3, seed: 1);
+        SavedGrouping theirs = Sample("weekly", groups: 5, seed: 2);
+        await store.SaveAsync(Tenant, ours, replace: false, CancellationToken.None);
+        await store.SaveAsync(OtherTenant, theirs, replace: false, CancellationToken.None);   // names are unique per tenant only
+        await store.SaveAsync(OtherTenant, Sample("theirs-only", seed: 3), replace: false, CancellationToken.None);
+
+        AssertSame(ours, await store.GetAsync(Tenant, "weekly", CancellationToken.None));
+        AssertSame(theirs, await store.GetAsync(OtherTenant, "weekly", CancellationToken.None));
+        Assert.Null(await store.GetAsync(Tenant, "theirs-only", CancellationToken.None));
+        Assert.False(await store.ExistsAsync(Tenant, "theirs-only", CancellationToken.None));
+        Assert.Equal(["weekly"], (await store.ListAsync(Tenant, 50, null, CancellationToken.None)).Groupings.Select(g => g.Id));
+
+        await store.SaveAsync(Tenant, Sample("weekly", groups: 2, seed: 4), replace: true, CancellationToken.None);
+        AssertSame(theirs, await store.GetAsync(OtherTenant, "weekly", CancellationToken.None));
+        Assert.False(await store.DeleteAsync(Tenant, "theirs-only", CancellationToken.None));
+        Assert.True(await store.DeleteAsync(Tenant, "weekly", CancellationToken.None));
+
+        AssertSame(theirs, await store.GetAsync(OtherTenant, "weekly", CancellationToken.None));
+        Assert.Equal(2, (await store.ListAsync(OtherTenant, 50, null, CancellationToken.None)).Groupings.Count);
+    }
+
+    [SkippableFact]
+    public async Task Migrate_VersionOneDatabaseWithGroupings_OldRowsBelongToTheDefaultTenant()
+    {
+        // A database as the server left it before tenants: schema version 1 and one saved grouping of 2 groups × 3
+        // dimensions, its rows written by hand in the encodings version 1 used.
+        await using (DbConnection connection = await OpenDatabaseAsync())
+        {
+            await Execute(connection, VersionOneSchema);
+            await Execute(connection, "CREATE TABLE topicgroups_schema_version (version INTEGER NOT NULL); INSERT INTO topicgroups_schema_version (version) VALUES (1)");
+            float[] centres = [1, 0, 0, 0, 0.6f, 0.8f];
+            await Execute(
+                connection,
+                """
+                INSERT INTO topicgroups_groupings (name, created_at_us, group_count, document_count, dimensions, objective,
+                  highest_group_id, outlier_score_threshold, outlier_minimum_group_size, options_json, centroids)
+                VALUES ('before-tenants', 1796000000000000, 2, 40, 3, 0.75, 2, 3.5, 8, @options, @centres)
+                """,
+                ("options", """{"groupCount":2,"seed":7,"restartCount":4,"maxIterations":50,"termCount":5,"exampleCount":1,"includeBigrams":false,"outlierScoreThreshold":3.5,"outlierMinimumGroupSize":8}"""),
+                ("centres", centres.SelectMany(BitConverter.GetBytes).ToArray()));
+            for (int position = 0; position < 2; position++)
+            {
+                await Execute(
+                    connection,
+                    """
+                    INSERT INTO topicgroups_groups (grouping_name, position, group_id, size, cohesion, outlier_count,
+                      similarity_median, similarity_mad, terms_json, examples_json)
+                    VALUES ('before-tenants', @position, @id, 20, 0.8, 1, 0.85, 0.03, @terms, @examples)
+                    """,
+                    ("position", position),
+                    ("id", position + 1),
+                    ("terms", $$"""[{"term":"refund{{position}}","weight":2.5}]"""),
+                    ("examples", $$"""[{"index":{{position}},"id":"t-{{position}}","text":"Refund for the late ferry","similarity":0.9}]"""));
+            }
+        }
+
+        IGroupingStore store = OpenStore();
+        SavedGrouping? migrated = await store.GetAsync(DefaultTenant, "before-tenants", CancellationToken.None);
+
+        Assert.NotNull(migrated);
+        Assert.Equal(new DateTimeOffset(2026, 11, 30, 0, 53, 20, TimeSpan.Zero), migrated.CreatedAt);
+        Assert.Equal([1, 0, 0, 0, 0.6f, 0.8f], migrated.Snapshot.Centroids);
+        Assert.Equal([1, 2], migrated.Snapshot.Groups.Select(g => g.Id));
+        Assert.Equal("refund1", migrated.Snapshot.Groups[1].Terms[0].Term);
+        Assert.Equal((7UL, 4), (migrated.Options.Seed, migrated.Options.RestartCount));
+        Assert.Null(await store.GetAsync(Tenant, "before-tenants", CancellationToken.None));
+        Assert.Equal(["before-tenants"], (await store.ListAsync(DefaultTenant, 50, null, CancellationToken.None)).Groupings.Select(g => g.Id));
+
+        // The name is now unique per tenant: another tenant may use it, and the default tenant's copy stays whole.
+        await store.SaveAsync(Tenant, Sample("before-tenants"), replace: false, CancellationToken.None);
+        await Assert.ThrowsAsync<GroupingExistsException>(
+            () => store.SaveAsync(DefaultTenant, Sample("before-tenants"), replace: false, CancellationToken.None));
+        Assert.Equal(2, (await store.GetAsync(DefaultTenant, "before-tenants", CancellationToken.None))!.Snapshot.Groups.Count);
+        await using (DbConnection connection = await OpenDatabaseAsync())
+        await using (DbCommand versions = connection.CreateCommand())
+        {
+            versions.CommandText = "SELECT MAX(version) FROM topicgroups_schema_version";
+            Assert.Equal(2, Convert.ToInt32(await versions.ExecuteScalarAsync(), System.Globalization.CultureInfo.InvariantCulture));
+        }
+    }
+
+    private static async Task Execute(DbConnection connection, string sql, params (string Name, object Value)[] parameters)
+    {
+        await using DbCommand command = connection.CreateCommand();
+        command.CommandText = sql;
+        foreach (var (name, value) in parameters)
+        {
+            DbParameter parameter = command.CreateParameter();
+            parameter.ParameterName = "@" + name;
+            parameter.Value = value;
+            command.Parameters.Add(parameter);
+        }
+
+        await command.ExecuteNonQueryAsync();
     }
 
     [SkippableFact]
@@ -144,7 +262,7 @@ public abstract class GroupingStoreContractTests(ITestOutputHelper output) : IDi
         string[] names = ["a-1", "a-2", "a-3", "a-4", "a-5", "a-6", "a-7"];
         for (int i = 0; i < names.Length; i++)
         {
-            await store.SaveAsync(Sample(names[i], createdAt: start.AddMinutes(i == 6 ? 5 : i)), replace: false, CancellationToken.None);
+            await store.SaveAsync(Tenant, Sample(names[i], createdAt: start.AddMinutes(i == 6 ? 5 : i)), replace: false, CancellationToken.None);
         }
 
         var listed = new List<string>();
@@ -152,7 +270,7 @@ public abstract class GroupingStoreContractTests(ITestOutputHelper output) : IDi
         int pages = 0;
         do
         {
-            GroupingPage page = await store.ListAsync(3, token, CancellationToken.None);
+            GroupingPage page = await store.ListAsync(Tenant, 3, token, CancellationToken.None);
             Assert.InRange(page.Groupings.Count, 1, 3);
             listed.AddRange(page.Groupings.Select(g => g.Id));
             token = page.Next;
@@ -162,14 +280,14 @@ public abstract class GroupingStoreContractTests(ITestOutputHelper output) : IDi
 
         Assert.Equal(["a-6", "a-7", "a-5", "a-4", "a-3", "a-2", "a-1"], listed);
         Assert.Equal(3, pages);
-        SavedGroupingSummary first = (await store.ListAsync(1, null, CancellationToken.None)).Groupings[0];
+        SavedGroupingSummary first = (await store.ListAsync(Tenant, 1, null, CancellationToken.None)).Groupings[0];
         Assert.Equal((3, 43, 5), (first.GroupCount, first.DocumentCount, first.Dimensions));
     }
 
     [SkippableFact]
     public async Task List_Empty_NoGroupingsNoNextPage()
     {
-        GroupingPage page = await OpenStore().ListAsync(50, null, CancellationToken.None);
+        GroupingPage page = await OpenStore().ListAsync(Tenant, 50, null, CancellationToken.None);
 
         Assert.Empty(page.Groupings);
         Assert.Null(page.Next);
@@ -182,11 +300,11 @@ public abstract class GroupingStoreContractTests(ITestOutputHelper output) : IDi
         SavedGrouping[] groupings = Enumerable.Range(0, 24).Select(i => Sample($"parallel-{i}", groups: 20, dimensions: 64, seed: i)).ToArray();
 
         await Parallel.ForEachAsync(groupings, new ParallelOptions { MaxDegreeOfParallelism = 8 },
-            async (grouping, token) => await store.SaveAsync(grouping, replace: false, token));
+            async (grouping, token) => await store.SaveAsync(Tenant, grouping, replace: false, token));
 
         foreach (SavedGrouping grouping in groupings)
         {
-            AssertSame(grouping, await store.GetAsync(grouping.Id, CancellationToken.None));
+            AssertSame(grouping, await store.GetAsync(Tenant, grouping.Id, CancellationToken.None));
         }
     }
 
@@ -201,7 +319,7 @@ public abstract class GroupingStoreContractTests(ITestOutputHelper output) : IDi
         {
             try
             {
-                await store.SaveAsync(grouping, replace: false, token);
+                await store.SaveAsync(Tenant, grouping, replace: false, token);
             }
             catch (GroupingExistsException)
             {
@@ -210,7 +328,7 @@ public abstract class GroupingStoreContractTests(ITestOutputHelper output) : IDi
         });
 
         Assert.Equal(attempts.Length - 1, lost);
-        SavedGrouping? stored = await store.GetAsync("contested", CancellationToken.None);
+        SavedGrouping? stored = await store.GetAsync(Tenant, "contested", CancellationToken.None);
         AssertSame(attempts.Single(a => a.Snapshot.DocumentCount == stored!.Snapshot.DocumentCount), stored);
     }
 
@@ -222,9 +340,9 @@ public abstract class GroupingStoreContractTests(ITestOutputHelper output) : IDi
         SavedGrouping[] versions = Enumerable.Range(0, 12).Select(i => Sample("replaced", groups: 3 + i, seed: i)).ToArray();
 
         await Parallel.ForEachAsync(versions, new ParallelOptions { MaxDegreeOfParallelism = 6 },
-            async (grouping, token) => await store.SaveAsync(grouping, replace: true, token));
+            async (grouping, token) => await store.SaveAsync(Tenant, grouping, replace: true, token));
 
-        SavedGrouping? stored = await store.GetAsync("replaced", CancellationToken.None);
+        SavedGrouping? stored = await store.GetAsync(Tenant, "replaced", CancellationToken.None);
         AssertSame(versions.Single(v => v.Snapshot.Groups.Count == stored!.Snapshot.Groups.Count), stored);
     }
 
@@ -232,12 +350,12 @@ public abstract class GroupingStoreContractTests(ITestOutputHelper output) : IDi
     public async Task Reopen_NewStoreOnTheSameDatabase_SeesSavedGroupingsAndKeepsTheSchema()
     {
         SavedGrouping saved = Sample("survives");
-        await OpenStore().SaveAsync(saved, replace: false, CancellationToken.None);
+        await OpenStore().SaveAsync(Tenant, saved, replace: false, CancellationToken.None);
 
         IGroupingStore reopened = OpenStore();
 
-        AssertSame(saved, await reopened.GetAsync("survives", CancellationToken.None));
-        await reopened.SaveAsync(Sample("after-reopen"), replace: false, CancellationToken.None);
+        AssertSame(saved, await reopened.GetAsync(Tenant, "survives", CancellationToken.None));
+        await reopened.SaveAsync(Tenant, Sample("after-reopen"), replace: false, CancellationToken.None);
     }
 
     [SkippableFact]
@@ -254,7 +372,7 @@ public abstract class GroupingStoreContractTests(ITestOutputHelper output) : IDi
         {
             int reported = await RunWriterUntilKilledAsync(writer, kind, location, minimumVersions: 3, killAfter: TimeSpan.FromMilliseconds(random.Next(5, 80)));
 
-            SavedGrouping? stored = await OpenStore().GetAsync("crash-test", CancellationToken.None);
+            SavedGrouping? stored = await OpenStore().GetAsync(Tenant, "crash-test", CancellationToken.None);
             Assert.NotNull(stored);
             int version = StoreWriterVersions.VersionOf(stored);   // throws if the parts come from different saves
             Output.WriteLine($"round {round}: writer reported version {reported} committed; the store holds version {version}");

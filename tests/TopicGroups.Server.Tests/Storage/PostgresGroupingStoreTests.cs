@@ -1,3 +1,4 @@
+using System.Data.Common;
 using Npgsql;
 using TopicGroups.Server.Storage;
 using Xunit;
@@ -40,6 +41,51 @@ public sealed class PostgresGroupingStoreTests(ITestOutputHelper output) : Group
 
     protected override IGroupingStore OpenStore()
     {
+        var store = new PostgresGroupingStore(SchemaConnectionString());
+        _stores.Add(store);
+        return store;
+    }
+
+    protected override (string Kind, string Location) WriterTarget() => ("postgres", _connectionString!);
+
+    protected override async Task<DbConnection> OpenDatabaseAsync()
+    {
+        var connection = new NpgsqlConnection(SchemaConnectionString());
+        await connection.OpenAsync();
+        return connection;
+    }
+
+    protected override string VersionOneSchema => """
+        CREATE TABLE topicgroups_groupings (
+          name TEXT NOT NULL PRIMARY KEY,
+          created_at_us BIGINT NOT NULL,
+          group_count INTEGER NOT NULL,
+          document_count INTEGER NOT NULL,
+          dimensions INTEGER NOT NULL,
+          objective DOUBLE PRECISION NOT NULL,
+          highest_group_id INTEGER NOT NULL,
+          outlier_score_threshold DOUBLE PRECISION NOT NULL,
+          outlier_minimum_group_size INTEGER NOT NULL,
+          options_json TEXT NOT NULL,
+          centroids BYTEA NOT NULL);
+        CREATE INDEX topicgroups_groupings_by_time ON topicgroups_groupings (created_at_us DESC, name);
+        CREATE TABLE topicgroups_groups (
+          grouping_name TEXT NOT NULL,
+          position INTEGER NOT NULL,
+          group_id INTEGER NOT NULL,
+          size INTEGER NOT NULL,
+          cohesion DOUBLE PRECISION NOT NULL,
+          outlier_count INTEGER NOT NULL,
+          similarity_median DOUBLE PRECISION NOT NULL,
+          similarity_mad DOUBLE PRECISION NOT NULL,
+          terms_json TEXT NOT NULL,
+          examples_json TEXT NOT NULL,
+          PRIMARY KEY (grouping_name, position));
+        """;
+
+    /// <summary>The connection string into this test's own schema, created on first use.</summary>
+    private string SchemaConnectionString()
+    {
         if (_connectionString is null)
         {
             string server = ServerConnectionString();
@@ -53,12 +99,8 @@ public sealed class PostgresGroupingStoreTests(ITestOutputHelper output) : Group
             _connectionString = new NpgsqlConnectionStringBuilder(server) { SearchPath = _schema }.ConnectionString;
         }
 
-        var store = new PostgresGroupingStore(_connectionString);
-        _stores.Add(store);
-        return store;
+        return _connectionString;
     }
-
-    protected override (string Kind, string Location) WriterTarget() => ("postgres", _connectionString!);
 
     public override void Dispose()
     {
