@@ -30,7 +30,7 @@ internal sealed class GroupingOptionSet
 
     public Option<string?> Output { get; } = new("--output", "-o") { Description = "Write the full result as JSON to this file." };
 
-    public Option<string?> Csv { get; } = new("--csv") { Description = "Write one row per document (id,group,similarity,margin,outlier) to this CSV file." };
+    public Option<string?> Csv { get; } = new("--csv") { Description = "Write one row per document (id,group,similarity,margin,outlier,runner_up_group,runner_up_similarity) to this CSV file." };
 
     public Option<string?> Report { get; } = new("--report")
     {

@@ -5,13 +5,15 @@ using TopicGroups.Protos.V1;
 namespace TopicGroups.Cli.Output;
 
 /// <summary>
-/// Writes one row per document: id,group,similarity,margin,outlier. Quoting follows RFC 4180:
+/// Writes one row per document: id,group,similarity,margin,outlier,runner_up_group,runner_up_similarity (the
+/// next-best group and its cosine, so borderline documents can be sorted out for review; 0 and 0 when there is one
+/// group). Quoting follows RFC 4180:
 /// a field holding a comma, double quote, CR or LF is wrapped in double quotes and its quotes are
 /// doubled. Numbers use the invariant culture (a dot as decimal separator); lines end in CRLF as the RFC says.
 /// </summary>
 internal static class CsvAssignmentsWriter
 {
-    public const string HeaderLine = "id,group,similarity,margin,outlier";
+    public const string HeaderLine = "id,group,similarity,margin,outlier,runner_up_group,runner_up_similarity";
 
     public static void Write(string path, GroupDocumentsResponse response)
     {
@@ -34,6 +36,10 @@ internal static class CsvAssignmentsWriter
             writer.Write(Number(placement.Margin));
             writer.Write(',');
             writer.Write(placement.IsOutlier ? "true" : "false");
+            writer.Write(',');
+            writer.Write(placement.RunnerUpGroupId.ToString(CultureInfo.InvariantCulture));
+            writer.Write(',');
+            writer.Write(Number(placement.RunnerUpSimilarity));
             writer.Write("\r\n");
         }
     }

@@ -3,8 +3,8 @@ namespace TopicGroups.Core.Terms;
 /// <summary>Top TF-IDF terms per group, weighed against the whole batch.</summary>
 /// <remarks>
 /// <para>Terms: see <see cref="Tokeniser"/> (Unicode letter/digit runs, lower-cased, single characters and
-/// pure digits dropped), minus ML.NET's English stop-word list (<see cref="StopWords"/>: 310 words; it lacks
-/// "you", "your" and "yet", which the weighting below usually removes as words common to every group); with
+/// pure digits dropped), minus ML.NET's English stop-word list with the few words it lacks
+/// (<see cref="StopWords"/>); with
 /// <see cref="GroupTermsOptions.IncludeBigrams"/>, adjacent kept words of a document joined by a space are
 /// terms too.</para>
 /// <para>Weights, after Manning, Raghavan &amp; Schütze, Introduction to Information Retrieval (2008),

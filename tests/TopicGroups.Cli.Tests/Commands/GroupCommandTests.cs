@@ -87,7 +87,7 @@ public sealed class GroupCommandTests : IDisposable
         Assert.Equal(6, result.RootElement.GetProperty("statistics").GetProperty("document_count").GetInt32());
         string[] rows = File.ReadAllText(csv).Split("\r\n", StringSplitOptions.RemoveEmptyEntries);
         Assert.Equal(7, rows.Length);
-        Assert.Equal("doc-1,2,0.9,0.1,false", rows[2]);
+        Assert.Equal("doc-1,2,0.9,0.1,false,1,0.5", rows[2]);
         Assert.Contains($"wrote {json}", error);
         Assert.Contains($"wrote {csv}", error);
     }

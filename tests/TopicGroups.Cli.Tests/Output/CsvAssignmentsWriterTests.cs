@@ -15,10 +15,10 @@ public sealed class CsvAssignmentsWriterTests
         CsvAssignmentsWriter.Write(writer, SampleResponses.TwoGroups());
         string[] rows = writer.ToString().Split("\r\n");
 
-        Assert.Equal("id,group,similarity,margin,outlier", rows[0]);
-        Assert.Equal("\"d,\"\"1\"\"\",1,0.95,0.5,false", rows[1]);
-        Assert.Equal("p-1,2,0.9,0.25,false", rows[2]);
-        Assert.Equal("d-3,1,0.3,0,true", rows[5]);
+        Assert.Equal("id,group,similarity,margin,outlier,runner_up_group,runner_up_similarity", rows[0]);
+        Assert.Equal("\"d,\"\"1\"\"\",1,0.95,0.5,false,2,0.45", rows[1]);
+        Assert.Equal("p-1,2,0.9,0.25,false,1,0.65", rows[2]);
+        Assert.Equal("d-3,1,0.3,0,true,2,0.3", rows[5]);
         Assert.Equal("", rows[6]); // the last row ends with CRLF too
         Assert.Equal(7, rows.Length);
     }

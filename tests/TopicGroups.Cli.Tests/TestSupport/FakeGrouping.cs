@@ -59,6 +59,7 @@ internal sealed class FakeGrouping
                 Similarity = similarity,
                 Margin = 0.1f,
                 RunnerUpGroupId = groupCount > 1 ? (best + 1) % groupCount + 1 : 0,
+                RunnerUpSimilarity = groupCount > 1 ? 0.5f : 0f,
                 IsOutlier = similarity < 0.2f,
             });
         }

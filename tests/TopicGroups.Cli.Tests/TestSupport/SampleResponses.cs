@@ -41,11 +41,11 @@ internal static class SampleResponses
         response.Groups.Add(small); // out of order on purpose: the report sorts by size
         response.Groups.Add(large);
 
-        response.Documents.Add(new DocumentPlacement { DocumentId = "d,\"1\"", GroupId = 1, Similarity = 0.95f, Margin = 0.5f, RunnerUpGroupId = 2 });
-        response.Documents.Add(new DocumentPlacement { DocumentId = "p-1", GroupId = 2, Similarity = 0.9f, Margin = 0.25f, RunnerUpGroupId = 1 });
+        response.Documents.Add(new DocumentPlacement { DocumentId = "d,\"1\"", GroupId = 1, Similarity = 0.95f, Margin = 0.5f, RunnerUpGroupId = 2, RunnerUpSimilarity = 0.45f });
+        response.Documents.Add(new DocumentPlacement { DocumentId = "p-1", GroupId = 2, Similarity = 0.9f, Margin = 0.25f, RunnerUpGroupId = 1, RunnerUpSimilarity = 0.65f });
         response.Documents.Add(new DocumentPlacement { DocumentId = "d-2", GroupId = 1, Similarity = 0.8f, Margin = 0.125f, RunnerUpGroupId = 2 });
         response.Documents.Add(new DocumentPlacement { DocumentId = "p-2", GroupId = 2, Similarity = 0.2f, Margin = 0.01f, RunnerUpGroupId = 1 });
-        response.Documents.Add(new DocumentPlacement { DocumentId = "d-3", GroupId = 1, Similarity = 0.3f, Margin = -0.0f, RunnerUpGroupId = 2, IsOutlier = true });
+        response.Documents.Add(new DocumentPlacement { DocumentId = "d-3", GroupId = 1, Similarity = 0.3f, Margin = -0.0f, RunnerUpGroupId = 2, RunnerUpSimilarity = 0.3f, IsOutlier = true });
         return response;
     }
 }
