@@ -95,6 +95,13 @@ public static class ServerHost
         });
         services.TryAddSingleton(TimeProvider.System);
         services.AddSingleton<SavedGroupings>();
+
+        // Request ids: a retried grouping call runs and saves once (docs/retries.md).
+        services.AddOptions<RequestReplayOptions>()
+            .BindConfiguration(RequestReplayOptions.SectionName)
+            .PostConfigure(replay => replay.Validate())
+            .ValidateOnStart();
+        services.AddSingleton<RequestReplay>();
     }
 
     internal static void MapEndpoints(WebApplication app)

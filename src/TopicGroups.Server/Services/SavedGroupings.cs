@@ -20,7 +20,11 @@ internal sealed record GroupingPlan(
     double MinimumMatchSimilarity,
     bool WarmStart,
     string? SaveId,
-    bool Replace);
+    bool Replace)
+{
+    /// <summary>The call's request id, recorded with the saved grouping (see RequestReplay).</summary>
+    public SavedRequest? Request { get; init; }
+}
 
 /// <summary>
 /// The saved-grouping steps of the service: checks names and options, loads references, applies continuity,
@@ -137,7 +141,7 @@ internal sealed class SavedGroupings(IGroupingStore store, TimeProvider time, IO
         {
             GroupingSnapshot snapshot = GroupingSnapshot.Capture(final, plan.Input.Options, continued?.HighestGroupId ?? 0);
             var options = plan.Input.Options with { GroupCount = final.Groups.Count, InitialCentroids = null };
-            var saved = new SavedGrouping(id, time.GetUtcNow(), snapshot, options);
+            var saved = new SavedGrouping(id, time.GetUtcNow(), snapshot, options) { Request = plan.Request };
             try
             {
                 await StoreAsync(async () =>
@@ -149,6 +153,10 @@ internal sealed class SavedGroupings(IGroupingStore store, TimeProvider time, IO
             catch (GroupingExistsException)
             {
                 throw AlreadyExists(id);
+            }
+            catch (RequestAlreadySavedException earlier)
+            {
+                id = earlier.Id;   // a retry of this request saved it first; name that grouping, save nothing more
             }
 
             response.SavedGroupingName = GroupingNames.NameOf(id);

@@ -11,17 +11,20 @@ using Proto = TopicGroups.Protos.V1;
 namespace TopicGroups.Server.Services;
 
 /// <summary>Translates only: proto, then Validation, then Core (off the request thread), then Mapping, then proto.</summary>
-internal sealed class TopicGroupsGrpcService(GroupingRunner runner, SavedGroupings saved, IOptions<TopicGroupsLimits> limits, TextEmbedding embedding)
+internal sealed class TopicGroupsGrpcService(
+    GroupingRunner runner, SavedGroupings saved, IOptions<TopicGroupsLimits> limits, TextEmbedding embedding, RequestReplay replay)
     : Proto.TopicGroupsService.TopicGroupsServiceBase
 {
     private readonly TopicGroupsLimits _limits = limits.Value;
 
-    public override async Task<Proto.GroupDocumentsResponse> GroupDocuments(
-        Proto.GroupDocumentsRequest request,
-        ServerCallContext context)
+    public override Task<Proto.GroupDocumentsResponse> GroupDocuments(Proto.GroupDocumentsRequest request, ServerCallContext context) =>
+        replay.RunOnceAsync(RequestReplay.KeyOf(request, context), request.Options, context, once => GroupOnceAsync(request, context, once));
+
+    private async Task<Proto.GroupDocumentsResponse> GroupOnceAsync(Proto.GroupDocumentsRequest request, ServerCallContext context, ReplayRun once)
     {
         GroupingInput input = RequestValidator.ToInput(request, _limits, embedding, out TextsToEmbed? texts);   // INVALID_ARGUMENT / RESOURCE_EXHAUSTED
         GroupingPlan plan = await saved.PrepareAsync(CallerTenant.Of(context), request.Options, input, context.CancellationToken);   // reference, save name
+        plan = once.Apply(plan);
         GroupingResult result = await runner.RunAsync(plan.Input, progress: null, context, texts);
         Proto.GroupDocumentsResponse response = await saved.CompleteAsync(plan, result, context.CancellationToken);
         if (texts?.Run is EmbeddingRun run)
@@ -40,9 +43,11 @@ internal sealed class TopicGroupsGrpcService(GroupingRunner runner, SavedGroupin
         CancellationToken cancellationToken = context.CancellationToken;
         var validator = new RequestValidator(_limits, embedding);
         Proto.GroupingOptions? options = null;
+        using var requestId = new StreamedRequestId(nameof(StreamGroupDocuments));
         await foreach (Proto.StreamGroupDocumentsRequest chunk in requestStream.ReadAllAsync(cancellationToken))
         {
             validator.AddChunk(chunk);
+            requestId.Add(chunk);
             options ??= chunk.Options;   // chunk 0's (AddChunk has checked the order)
             var received = new Proto.GroupingProgress
             {
@@ -53,7 +58,22 @@ internal sealed class TopicGroupsGrpcService(GroupingRunner runner, SavedGroupin
         }
 
         GroupingInput input = validator.ToInput();   // options are present once this returns
-        GroupingPlan plan = await saved.PrepareAsync(CallerTenant.Of(context), options!, input, cancellationToken);
+        Proto.GroupDocumentsResponse result = await replay.RunOnceAsync(
+            requestId.Key(context), options, context, once => GroupStreamedOnceAsync(validator, input, options!, once, responseStream, context));
+        await responseStream.WriteAsync(new Proto.StreamGroupDocumentsResponse { Result = result }, cancellationToken);
+    }
+
+    private async Task<Proto.GroupDocumentsResponse> GroupStreamedOnceAsync(
+        RequestValidator validator,
+        GroupingInput input,
+        Proto.GroupingOptions options,
+        ReplayRun once,
+        IServerStreamWriter<Proto.StreamGroupDocumentsResponse> responseStream,
+        ServerCallContext context)
+    {
+        CancellationToken cancellationToken = context.CancellationToken;
+        GroupingPlan plan = await saved.PrepareAsync(CallerTenant.Of(context), options, input, cancellationToken);
+        plan = once.Apply(plan);
         var relay = new ProgressRelay(responseStream, cancellationToken);
         GroupingResult result;
         try
@@ -71,7 +91,7 @@ internal sealed class TopicGroupsGrpcService(GroupingRunner runner, SavedGroupin
             EmbeddingStatistics.AddTo(response.Result.Statistics, run);
         }
 
-        await responseStream.WriteAsync(response, cancellationToken);
+        return response.Result;
     }
 
     public override Task<Proto.Grouping> GetGrouping(Proto.GetGroupingRequest request, ServerCallContext context) =>

@@ -5,7 +5,24 @@ namespace TopicGroups.Server.Storage;
 /// <summary>A grouping kept under a name: what was computed, how, and when.</summary>
 /// <param name="Id">The {grouping} part of the resource name "groupings/{grouping}".</param>
 /// <param name="Options">The options the grouping was made with, defaults filled in.</param>
-public sealed record SavedGrouping(string Id, DateTimeOffset CreatedAt, GroupingSnapshot Snapshot, GroupingOptions Options);
+public sealed record SavedGrouping(string Id, DateTimeOffset CreatedAt, GroupingSnapshot Snapshot, GroupingOptions Options)
+{
+    /// <summary>The request id that made it and its content hash; null when the call had none (docs/retries.md).</summary>
+    public SavedRequest? Request { get; init; }
+}
+
+/// <summary>A grouping call's request id (unique per tenant) and the SHA-256 (hex) of what the call sent.</summary>
+public sealed record SavedRequest(string RequestId, string ContentHash);
+
+/// <summary>The grouping a request id saved, and that request's content hash.</summary>
+public sealed record SavedRequestRecord(string GroupingId, string ContentHash);
+
+/// <summary>Saving with a request id that already saved a grouping in the tenant (a retry raced its first attempt).</summary>
+public sealed class RequestAlreadySavedException(string id)
+    : Exception($"This request already saved the grouping \"{id}\".")
+{
+    public string Id { get; } = id;
+}
 
 /// <summary>One page of <see cref="IGroupingStore.ListAsync"/>: newest first; Next is null on the last page.</summary>
 public sealed record GroupingPage(IReadOnlyList<SavedGroupingSummary> Groupings, GroupingPageToken? Next);
@@ -39,6 +56,7 @@ public interface IGroupingStore
 {
     /// <summary>Saves <paramref name="grouping"/>; with <paramref name="replace"/> an existing one of that id is replaced.</summary>
     /// <exception cref="GroupingExistsException">The id is taken in this tenant and <paramref name="replace"/> is false.</exception>
+    /// <exception cref="RequestAlreadySavedException">The grouping's request id already saved a grouping in this tenant.</exception>
     Task SaveAsync(string tenant, SavedGrouping grouping, bool replace, CancellationToken cancellationToken);
 
     /// <summary>The grouping, or null when the tenant has none with that id.</summary>
@@ -51,4 +69,7 @@ public interface IGroupingStore
 
     /// <summary>True when a grouping was deleted, false when the tenant had none with that id.</summary>
     Task<bool> DeleteAsync(string tenant, string id, CancellationToken cancellationToken);
+
+    /// <summary>The tenant's grouping saved with this request id (<see cref="SavedGrouping.Request"/>), or null.</summary>
+    Task<SavedRequestRecord?> FindByRequestAsync(string tenant, string requestId, CancellationToken cancellationToken);
 }

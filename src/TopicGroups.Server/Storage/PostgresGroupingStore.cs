@@ -54,6 +54,13 @@ public sealed class PostgresGroupingStore : SqlGroupingStore, IAsyncDisposable
         ALTER TABLE topicgroups_groups ALTER COLUMN tenant DROP DEFAULT;
         ALTER TABLE topicgroups_groups DROP CONSTRAINT topicgroups_groups_pkey, ADD PRIMARY KEY (tenant, grouping_name, position);
         """,
+
+        // Version 3: the request id a grouping was saved by, so a retried call does not save twice (docs/retries.md).
+        """
+        ALTER TABLE topicgroups_groupings ADD COLUMN request_id TEXT;
+        ALTER TABLE topicgroups_groupings ADD COLUMN request_hash TEXT;
+        CREATE UNIQUE INDEX topicgroups_groupings_by_request ON topicgroups_groupings (tenant, request_id);
+        """,
     ];
 
     private readonly NpgsqlDataSource _dataSource;

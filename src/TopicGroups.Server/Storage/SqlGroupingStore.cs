@@ -38,6 +38,22 @@ public abstract class SqlGroupingStore : IGroupingStore
         GroupingSnapshot snapshot = grouping.Snapshot;
         await using DbConnection connection = await OpenReadyAsync(cancellationToken);
         await using DbTransaction transaction = await BeginWriteAsync(connection, forMigration: false, cancellationToken);
+        if (grouping.Request is SavedRequest request)
+        {
+            // Under the write lock: a retry that raced its first attempt finds the first's grouping (the unique
+            // index on (tenant, request_id) backs this up for PostgreSQL, whose write transactions do not serialise).
+            await using DbCommand find = Command(
+                connection,
+                transaction,
+                "SELECT name FROM topicgroups_groupings WHERE tenant = @tenant AND request_id = @request",
+                ("tenant", tenant),
+                ("request", request.RequestId));
+            if (await find.ExecuteScalarAsync(cancellationToken) is string earlier)
+            {
+                await transaction.RollbackAsync(cancellationToken);
+                throw new RequestAlreadySavedException(earlier);
+            }
+        }
 
         // The parent row first: with replace it takes the row lock (PostgreSQL) so concurrent replacers queue here.
         string conflict = replace
@@ -107,7 +123,32 @@ public abstract class SqlGroupingStore : IGroupingStore
             }
         }
 
+        // The request that made it (null clears a replaced grouping's), in the same transaction as the grouping.
+        await ExecuteAsync(
+            connection,
+            transaction,
+            "UPDATE topicgroups_groupings SET request_id = @request, request_hash = @hash WHERE tenant = @tenant AND name = @name",
+            cancellationToken,
+            ("request", (object?)grouping.Request?.RequestId ?? DBNull.Value),
+            ("hash", (object?)grouping.Request?.ContentHash ?? DBNull.Value),
+            ("tenant", tenant),
+            ("name", grouping.Id));
         await transaction.CommitAsync(cancellationToken);
+    }
+
+    public async Task<SavedRequestRecord?> FindByRequestAsync(string tenant, string requestId, CancellationToken cancellationToken)
+    {
+        ArgumentException.ThrowIfNullOrWhiteSpace(tenant);
+        ArgumentException.ThrowIfNullOrEmpty(requestId);
+        await using DbConnection connection = await OpenReadyAsync(cancellationToken);
+        await using DbCommand command = Command(
+            connection,
+            null,
+            "SELECT name, request_hash FROM topicgroups_groupings WHERE tenant = @tenant AND request_id = @request",
+            ("tenant", tenant),
+            ("request", requestId));
+        await using DbDataReader reader = await command.ExecuteReaderAsync(cancellationToken);
+        return await reader.ReadAsync(cancellationToken) ? new SavedRequestRecord(reader.GetString(0), reader.GetString(1)) : null;
     }
 
     public async Task<SavedGrouping?> GetAsync(string tenant, string id, CancellationToken cancellationToken)

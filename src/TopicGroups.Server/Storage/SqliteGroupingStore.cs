@@ -85,6 +85,13 @@ public sealed class SqliteGroupingStore : SqlGroupingStore
         DROP TABLE topicgroups_groups;
         ALTER TABLE topicgroups_groups_v2 RENAME TO topicgroups_groups;
         """,
+
+        // Version 3: the request id a grouping was saved by, so a retried call does not save twice (docs/retries.md).
+        """
+        ALTER TABLE topicgroups_groupings ADD COLUMN request_id TEXT;
+        ALTER TABLE topicgroups_groupings ADD COLUMN request_hash TEXT;
+        CREATE UNIQUE INDEX topicgroups_groupings_by_request ON topicgroups_groupings (tenant, request_id);
+        """,
     ];
 
     private readonly string _connectionString;
