@@ -10,7 +10,7 @@ public sealed class RequestReplayTests : IDisposable
 {
     private const int Seed = 20261202;
     private readonly string _folder = Directory.CreateTempSubdirectory("topicgroups-replay-").FullName;
-    private StoreTestHost _host;
+    private TestHost _host;
 
     public RequestReplayTests()
     {
@@ -47,7 +47,7 @@ public sealed class RequestReplayTests : IDisposable
             {
                 ChunkIndex = c,
                 RequestId = c == 0 ? requestId : string.Empty,
-                Options = c == 0 ? new GroupingOptions { GroupCount = 150, RestartCount = 16, MaxIterations = 300, Save = true } : null,
+                Options = c == 0 ? new GroupingOptions { GroupCount = 150, RestartCount = 8, MaxIterations = 300, Save = true } : null,
             };
             chunk.Documents.AddRange(documents.Skip(c * 1000).Take(1000));
             chunks.Add(chunk);
@@ -61,12 +61,20 @@ public sealed class RequestReplayTests : IDisposable
         IEnumerable<StreamGroupDocumentsRequest> chunks, bool untilComputing, CancellationToken cancellationToken = default)
     {
         var call = Client.StreamGroupDocuments(cancellationToken: cancellationToken);
-        foreach (StreamGroupDocumentsRequest chunk in chunks)
+        try
         {
-            await call.RequestStream.WriteAsync(chunk, cancellationToken);
+            foreach (StreamGroupDocumentsRequest chunk in chunks)
+            {
+                await call.RequestStream.WriteAsync(chunk, cancellationToken);
+            }
+
+            await call.RequestStream.CompleteAsync();
+        }
+        catch (RpcException) when (!cancellationToken.IsCancellationRequested)
+        {
+            return call;   // the server ended the call early (a rejected chunk); its status is read from the responses
         }
 
-        await call.RequestStream.CompleteAsync();
         while (untilComputing && await call.ResponseStream.MoveNext(cancellationToken))
         {
             if (call.ResponseStream.Current.Progress is { Stage: not GroupingStage.Receiving })
@@ -126,6 +134,26 @@ public sealed class RequestReplayTests : IDisposable
         request.Options.SaveAs = name;
         return request;
     }
+
+    [Fact]
+    public async Task GroupDocuments_KeptReplyEvictedByTheEntryBound_RetryRunsAgainButSavesNothingMore()
+    {
+        _host.Dispose();
+        _host = new BoundedReplayHost(DatabasePath, maxEntries: 1);
+        GroupDocumentsResponse first = await Client.GroupDocumentsAsync(SmallRequest("bounded-a"));
+        await Client.GroupDocumentsAsync(SmallRequest("bounded-b", seed: Seed + 1));   // pushes bounded-a out
+
+        GroupDocumentsResponse retried = await Client.GroupDocumentsAsync(SmallRequest("bounded-a"));
+
+        Assert.NotEqual(first.Statistics.Seconds, retried.Statistics.Seconds);   // computed again ...
+        Assert.Equal(first.SavedGroupingName, retried.SavedGroupingName);         // ... but named, not saved, again
+        Assert.Equal(2, (await SavedAsync()).Count);
+    }
+
+    private sealed class BoundedReplayHost(string sqlitePath, int maxEntries) : StoreTestHost(sqlitePath, new Dictionary<string, string?>
+    {
+        ["TopicGroups:RequestReplay:MaxEntries"] = maxEntries.ToString(System.Globalization.CultureInfo.InvariantCulture),
+    });
 
     [Fact]
     public async Task GroupDocuments_SameRequestIdOtherDocuments_InvalidArgumentNamingRequestId()
