@@ -105,6 +105,24 @@ public abstract class GroupingStoreContractTests(ITestOutputHelper output) : IDi
     }
 
     [SkippableFact]
+    public async Task Save_WithRequest_FoundByItsIdInItsTenantOnlyAndASecondSaveOfTheIdRefused()
+    {
+        IGroupingStore store = OpenStore();
+        var request = new SavedRequest("run-7", "ab12");
+        await store.SaveAsync(Tenant, Sample("week-49") with { Request = request }, replace: false, CancellationToken.None);
+
+        SavedRequestRecord? found = await store.FindByRequestAsync(Tenant, "run-7", CancellationToken.None);
+        var refused = await Assert.ThrowsAsync<RequestAlreadySavedException>(
+            () => store.SaveAsync(Tenant, Sample("week-49-again") with { Request = request }, replace: false, CancellationToken.None));
+        await store.SaveAsync(OtherTenant, Sample("week-49") with { Request = request }, replace: false, CancellationToken.None);   // ids are per tenant
+
+        Assert.Equal(new SavedRequestRecord("week-49", "ab12"), found);
+        Assert.Equal("week-49", refused.Id);
+        Assert.False(await store.ExistsAsync(Tenant, "week-49-again", CancellationToken.None));
+        Assert.Null(await store.FindByRequestAsync(Tenant, "run-8", CancellationToken.None));
+    }
+
+    [SkippableFact]
     public async Task Get_UnknownName_Null()
     {
         IGroupingStore store = OpenStore();
