@@ -41,9 +41,9 @@ public sealed class TopicGroupsClient
     public TopicGroupsClient(TopicGroupsService.TopicGroupsServiceClient client, TopicGroupsClientOptions? options)
     {
         ArgumentNullException.ThrowIfNull(client);
-        _client = client;
-        _health = new Health.HealthClient(client.SharedCallInvoker);
         _options = (options ?? new TopicGroupsClientOptions()).Validated();
+        _client = ApiKeyHeader.Attach(client, _options.ApiKey);
+        _health = new Health.HealthClient(_client.SharedCallInvoker);
         _retry = BuildRetry(_options);
     }
 

@@ -41,8 +41,21 @@ public sealed class TopicGroupsClientOptions
     /// <value>The default is 256 MiB.</value>
     public int MaxResponseBytes { get; set; } = 256 * 1024 * 1024;
 
+    /// <summary>
+    /// The API key for a server that requires one; sent as the metadata header "authorization: Bearer KEY" on every
+    /// call. The key decides the tenant whose saved groupings the calls see. Use TLS (an https address) when the key
+    /// crosses a network. The client never logs or prints it.
+    /// </summary>
+    /// <value>The default is null: no key is sent.</value>
+    public string? ApiKey { get; set; }
+
     internal TopicGroupsClientOptions Validated()
     {
+        if (ApiKey is not null && ApiKeyHeader.Problem(ApiKey) is string problem)
+        {
+            throw new ArgumentException(problem, nameof(ApiKey));   // the message names the fault, never the key
+        }
+
         if (Timeout <= TimeSpan.Zero)
         {
             throw new ArgumentOutOfRangeException(nameof(Timeout), Timeout, "Timeout must be positive.");
@@ -82,6 +95,7 @@ public sealed class TopicGroupsClientOptions
             StreamingThresholdBytes = StreamingThresholdBytes,
             ChunkSizeBytes = ChunkSizeBytes,
             MaxResponseBytes = MaxResponseBytes,
+            ApiKey = ApiKey,
         };
     }
 }

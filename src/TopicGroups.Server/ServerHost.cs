@@ -5,6 +5,7 @@ using Microsoft.Extensions.Options;
 using TopicGroups.Core.Grouping;
 using Microsoft.Extensions.DependencyInjection.Extensions;
 using TopicGroups.Server.Embedding;
+using TopicGroups.Server.Security;
 using TopicGroups.Server.Services;
 using TopicGroups.Server.Storage;
 using TopicGroups.Server.Validation;
@@ -28,9 +29,13 @@ public static class ServerHost
         bool listenAnyAddress = builder.Configuration.GetValue("TopicGroups:ListenAnyAddress", false);
         builder.WebHost.ConfigureKestrel(kestrel =>
         {
-            // Cleartext HTTP/2 only: gRPC needs it, and Kestrel's default would be HTTP/1.1.
+            // HTTP/2 only (gRPC needs it; Kestrel's default would be HTTP/1.1): cleartext, or TLS when a certificate is configured.
             IPAddress address = listenAnyAddress ? IPAddress.Any : IPAddress.Loopback;
-            kestrel.Listen(address, chosenPort, listen => listen.Protocols = HttpProtocols.Http2);
+            kestrel.Listen(address, chosenPort, listen =>
+            {
+                listen.Protocols = HttpProtocols.Http2;
+                listen.UseConfiguredTls(builder.Configuration);   // TopicGroups:Tls (docs/operations.md, "Access")
+            });
         });
         ConfigureServices(builder);
         var app = builder.Build();
@@ -63,6 +68,7 @@ public static class ServerHost
             .ValidateOnStart();
 
         services.AddGrpc();
+        services.AddAccess();   // API keys, tenants, TLS options (Security/)
 
         // Read through options (not at build time) so test hosts and later configuration sources apply.
         services.AddOptions<GrpcServiceOptions>()
@@ -107,6 +113,7 @@ public static class ServerHost
     internal static void MapEndpoints(WebApplication app)
     {
         app.UseReceiveLimitMessage();
+        AccessStartupCheck.Register(app);
         app.MapGrpcService<TopicGroupsGrpcService>();
         app.MapGrpcHealthChecksService();
         app.MapGrpcReflectionService();

@@ -37,7 +37,7 @@ internal sealed class GroupingOptionSet
         Description = "Write a self-contained HTML report (map of the documents, group sizes, terms, examples, quality, outliers) to this file.",
     };
 
-    public Option<string?> ServerAddress { get; } = new("--server") { Description = "Address of a running TopicGroups server (http://host:port). Default: run the service inside this process." };
+    public Option<string?> ServerAddress { get; } = new("--server") { Description = "Address of a running TopicGroups server (http://host:port or https://host:port); a server that requires an API key reads it from $TOPICGROUPS_API_KEY. Default: run the service inside this process." };
 
     public void AddTo(Command command)
     {

@@ -37,7 +37,7 @@ internal static class ServiceGrouping
         try
         {
             using var channel = GrpcChannel.ForAddress(address, new GrpcChannelOptions { MaxReceiveMessageSize = MaxReceiveMessageBytes });
-            var client = new TopicGroupsClient(channel);
+            var client = new TopicGroupsClient(channel, ApiKeyVariable.ClientOptions(remote: server is not null));
             return await client.GroupDocumentsAsync(documents, options, progress, cancellationToken);
         }
         finally

@@ -24,7 +24,7 @@ internal sealed class ServiceSession : IAsyncDisposable
         _inProcess = inProcess;
         StorePath = storePath;
         _channel = GrpcChannel.ForAddress(address, new GrpcChannelOptions { MaxReceiveMessageSize = MaxReceiveMessageBytes });
-        Client = new TopicGroupsClient(_channel);
+        Client = new TopicGroupsClient(_channel, ApiKeyVariable.ClientOptions(remote: inProcess is null));
     }
 
     public Uri Address { get; }

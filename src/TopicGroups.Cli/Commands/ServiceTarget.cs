@@ -17,7 +17,7 @@ internal sealed class ServiceTarget
 
     public Option<string?> ServerAddress { get; } = new("--server")
     {
-        Description = "Address of a running TopicGroups server (http://host:port). Default: run the service inside this process.",
+        Description = "Address of a running TopicGroups server (http://host:port or https://host:port); a server that requires an API key reads it from $TOPICGROUPS_API_KEY. Default: run the service inside this process.",
     };
 
     public Option<string?> Store { get; } = new("--store") { Description = StoreDescription };

@@ -30,6 +30,11 @@ internal static class RpcErrorText
             }
         }
 
+        if (exception.StatusCode == StatusCode.Unauthenticated)
+        {
+            lines.Add($"  set the environment variable {Commands.ApiKeyVariable.Name} to the API key the server's operator gave you.");
+        }
+
         if (exception.StatusCode == StatusCode.Unavailable && server is not null)
         {
             lines.Add($"  is a TopicGroups server running at {server}? Start one, or leave out --server to run in-process.");

@@ -1,0 +1,36 @@
+using Grpc.AspNetCore.Server;
+using Microsoft.AspNetCore.Server.Kestrel.Core;
+
+namespace TopicGroups.Server.Security;
+
+/// <summary>Wires API keys, tenants and TLS into the host (called from ServerHost).</summary>
+internal static class AccessConfiguration
+{
+    public static void AddAccess(this IServiceCollection services)
+    {
+        services.AddOptions<AccessOptions>()
+            .BindConfiguration(AccessOptions.SectionName)
+            .PostConfigure(access => access.Validate())
+            .ValidateOnStart();
+        services.AddOptions<TlsOptions>().BindConfiguration(TlsOptions.SectionName);
+
+        // First of all interceptors, whoever registers theirs later: everything after it may rely on CallerTenant.
+        services.PostConfigure<GrpcServiceOptions>(grpc =>
+        {
+            grpc.Interceptors.Add<ApiKeyInterceptor>();
+            InterceptorRegistration registration = grpc.Interceptors[^1];
+            grpc.Interceptors.RemoveAt(grpc.Interceptors.Count - 1);
+            grpc.Interceptors.Insert(0, registration);
+        });
+    }
+
+    /// <summary>Turns on TLS for <paramref name="listen"/> when TopicGroups:Tls:CertificatePath is set.</summary>
+    public static void UseConfiguredTls(this ListenOptions listen, IConfiguration configuration)
+    {
+        TlsOptions tls = configuration.GetSection(TlsOptions.SectionName).Get<TlsOptions>() ?? new TlsOptions();
+        if (tls.Enabled)
+        {
+            listen.UseHttps(tls.LoadCertificate());
+        }
+    }
+}
