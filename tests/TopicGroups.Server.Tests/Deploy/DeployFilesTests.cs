@@ -53,6 +53,9 @@ public sealed partial class DeployFilesTests
     private static YamlMappingNode Single(string kind) =>
         Assert.Single(Manifests(), m => Text(m.Document, "kind") == kind).Document;
 
+    private static YamlMappingNode Named(string kind, string name) =>
+        Assert.Single(Manifests(), m => Text(m.Document, "kind") == kind && Text(m.Document, "metadata", "name") == name).Document;
+
     private static YamlNode At(YamlNode node, params object[] path)
     {
         foreach (object step in path)
@@ -95,7 +98,7 @@ public sealed partial class DeployFilesTests
         }
 
         Assert.Equal(
-            ["ConfigMap", "Deployment", "Secret", "Service"],
+            ["ConfigMap", "Deployment", "Secret", "Secret", "Service"],
             manifests.Select(m => Text(m.Document, "kind")).Order().ToArray());
     }
 
@@ -164,11 +167,11 @@ public sealed partial class DeployFilesTests
     [Fact]
     public void Deployment_SeveralReplicas_ShareThePostgresStoreFromTheSecret()
     {
-        YamlMappingNode secret = Single("Secret");
         YamlNode connection = Assert.Single(
             ((YamlSequenceNode)At(ServerContainer(), "env")).Children,
             variable => Text(variable, "name") == "TopicGroups__Storage__PostgresConnectionString");
         YamlNode reference = At(connection, "valueFrom", "secretKeyRef");
+        YamlMappingNode secret = Named("Secret", Text(reference, "name"));
 
         Assert.True(int.Parse(Text(Single("Deployment"), "spec", "replicas")) >= 2);
         Assert.Equal(Text(secret, "metadata", "name"), Text(reference, "name"));
@@ -176,6 +179,30 @@ public sealed partial class DeployFilesTests
         Assert.Equal(
             Text(Single("ConfigMap"), "metadata", "name"),
             Text(At(ServerContainer(), "envFrom", 0), "configMapRef", "name"));
+    }
+
+    [Fact]
+    public void Deployment_AccessKeys_ComeFromTheirSecretAsTenantAndHashPairs()
+    {
+        YamlNode secretReference = Assert.Single(
+            ((YamlSequenceNode)At(ServerContainer(), "envFrom")).Children, source => Has(source, "secretRef"));
+        YamlMappingNode secret = Named("Secret", Text(secretReference, "secretRef", "name"));
+        var entries = ((YamlMappingNode)At(secret, "stringData")).Children
+            .ToDictionary(pair => ((YamlScalarNode)pair.Key).Value!, pair => ((YamlScalarNode)pair.Value).Value!);
+
+        // Every entry is a configuration key of TopicGroups:Access (":" written "__"), and each key has its tenant and hash.
+        Assert.NotEmpty(entries);
+        Assert.All(entries.Keys, name => Assert.Matches(AccessKeyEntry(), name));
+        foreach (var index in entries.Keys.Select(name => AccessKeyEntry().Match(name).Groups["index"].Value).Distinct())
+        {
+            Assert.Matches("^[a-z0-9][a-z0-9_-]{0,62}$", entries[$"TopicGroups__Access__Keys__{index}__Tenant"]);
+            Assert.True(entries.ContainsKey($"TopicGroups__Access__Keys__{index}__Sha256"), $"key {index} has no Sha256");
+        }
+
+        // A plain key never goes into the manifests: each value is a placeholder or a 64-digit SHA-256.
+        Assert.All(
+            entries.Where(pair => pair.Key.EndsWith("__Sha256", StringComparison.Ordinal)).Select(pair => pair.Value),
+            hash => Assert.Matches("^(REPLACE-[A-Z0-9-]+|[0-9a-fA-F]{64})$", hash));
     }
 
     [Fact]
@@ -197,6 +224,9 @@ public sealed partial class DeployFilesTests
             limitBytes > concurrent * perGrouping,
             $"memory limit {limit} does not cover {concurrent} groupings of {perGrouping} bytes each");
     }
+
+    [GeneratedRegex(@"^TopicGroups__Access__Keys__(?<index>\d+)__(Tenant|Sha256|Label)$")]
+    private static partial Regex AccessKeyEntry();
 
     [GeneratedRegex(@"^RUN dotnet publish (?<project>\S+) -c (?<configuration>\S+)")]
     private static partial Regex PublishCommand();
