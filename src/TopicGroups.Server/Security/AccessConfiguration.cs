@@ -14,6 +14,9 @@ internal static class AccessConfiguration
             .ValidateOnStart();
         services.AddOptions<TlsOptions>().BindConfiguration(TlsOptions.SectionName);
 
+        // One instance for the server's life (gRPC takes registered interceptors from DI): the key table is built once.
+        services.AddSingleton<ApiKeyInterceptor>();
+
         // First of all interceptors, whoever registers theirs later: everything after it may rely on CallerTenant.
         services.PostConfigure<GrpcServiceOptions>(grpc =>
         {
