@@ -1,15 +1,14 @@
 using Grpc.Core;
 using Grpc.Health.V1;
 using Grpc.Net.Client;
-using Polly;
-using Polly.Retry;
 using TopicGroups.Protos.V1;
 
 namespace TopicGroups.Client;
 
 /// <summary>
 /// Typed client of the TopicGroups service. Sends small batches in one message and large ones as a stream of
-/// chunks, applies a deadline, and retries calls that fail with UNAVAILABLE. Thread-safe.
+/// chunks, applies a deadline, and retries calls that fail with UNAVAILABLE (or RESOURCE_EXHAUSTED with a retry
+/// delay) under a request id, so a retried grouping runs and saves once. Thread-safe.
 /// </summary>
 public sealed class TopicGroupsClient
 {
@@ -23,7 +22,7 @@ public sealed class TopicGroupsClient
     private readonly TopicGroupsService.TopicGroupsServiceClient _client;
     private readonly Health.HealthClient _health;
     private readonly TopicGroupsClientOptions _options;
-    private readonly ResiliencePipeline _retry;
+    private readonly CallRetries _retry;
 
     /// <summary>Creates a client on a channel you own (and dispose).</summary>
     /// <remarks>
@@ -44,12 +43,27 @@ public sealed class TopicGroupsClient
         _options = (options ?? new TopicGroupsClientOptions()).Validated();
         _client = ApiKeyHeader.Attach(client, _options.ApiKey);
         _health = new Health.HealthClient(_client.SharedCallInvoker);
-        _retry = BuildRetry(_options);
+        _retry = new CallRetries(_options, TimeProvider.System);
     }
 
     /// <summary>
-    /// Groups documents into options.GroupCount themes. The batch travels in one message when its encoded size
-    /// is at most StreamingThresholdBytes and no progress is asked for; otherwise it streams in chunks of about
+    /// Groups documents into options.GroupCount themes, under a fresh request id (see
+    /// <see cref="TopicGroupsClientOptions.AutomaticRequestIds"/>); otherwise as the overload that takes one.
+    /// </summary>
+#pragma warning disable RS0027 // The overload with a request id has no optional parameters, so no call can become ambiguous.
+    public Task<GroupDocumentsResponse> GroupDocumentsAsync(
+        IReadOnlyList<Document> documents,
+        GroupingOptions options,
+        IProgress<GroupingProgress>? progress = null,
+        CancellationToken cancellationToken = default) =>
+        GroupDocumentsAsync(_options.AutomaticRequestIds ? Guid.NewGuid().ToString() : string.Empty, documents, options, progress, cancellationToken);
+#pragma warning restore RS0027
+
+    /// <summary>
+    /// Groups documents into options.GroupCount themes. <paramref name="requestId"/> (1-128 characters of A-Z, a-z,
+    /// 0-9, '-', '_', '.'; empty for none) makes repeating the call safe, also across restarts of your own program:
+    /// the server runs and saves a request once and answers its repeats with the same result (docs/retries.md).
+    /// The batch travels in one message when its encoded size is at most StreamingThresholdBytes and no progress is asked for; otherwise it streams in chunks of about
     /// ChunkSizeBytes and the server reports progress (receiving, seeding, refining, describing) to
     /// <paramref name="progress"/>.
     /// </summary>
@@ -60,11 +74,13 @@ public sealed class TopicGroupsClient
     /// <paramref name="cancellationToken"/> fires; UNAVAILABLE when every attempt failed.
     /// </exception>
     public async Task<GroupDocumentsResponse> GroupDocumentsAsync(
+        string requestId,
         IReadOnlyList<Document> documents,
         GroupingOptions options,
-        IProgress<GroupingProgress>? progress = null,
-        CancellationToken cancellationToken = default)
+        IProgress<GroupingProgress>? progress,
+        CancellationToken cancellationToken)
     {
+        ArgumentNullException.ThrowIfNull(requestId);
         ArgumentNullException.ThrowIfNull(documents);
         ArgumentNullException.ThrowIfNull(options);
 
@@ -73,7 +89,7 @@ public sealed class TopicGroupsClient
         int[] sizes = EncodedSizes(documents, out long totalBytes);
         if (progress is null && totalBytes <= _options.StreamingThresholdBytes)
         {
-            var request = new GroupDocumentsRequest { Options = options };
+            var request = new GroupDocumentsRequest { Options = options, RequestId = requestId };
             request.Documents.AddRange(documents);
             return await _retry.ExecuteAsync(
                 async token => await _client.GroupDocumentsAsync(request, deadline: deadline, cancellationToken: token),
@@ -81,6 +97,7 @@ public sealed class TopicGroupsClient
         }
 
         List<StreamGroupDocumentsRequest> chunks = Chunk(documents, sizes, options, _options.ChunkSizeBytes);
+        chunks[0].RequestId = requestId;   // every attempt re-sends these same chunks, from chunk 0
         return await _retry.ExecuteAsync(
             async token => await StreamAsync(chunks, progress, deadline, token),
             cancellationToken);
@@ -331,25 +348,5 @@ public sealed class TopicGroupsClient
 
         chunks.Add(current); // an empty batch still sends chunk 0, so the server can say what is wrong
         return chunks;
-    }
-
-    private static ResiliencePipeline BuildRetry(TopicGroupsClientOptions options)
-    {
-        if (options.MaxRetryAttempts == 0)
-        {
-            return ResiliencePipeline.Empty;
-        }
-
-        return new ResiliencePipelineBuilder()
-            .AddRetry(new RetryStrategyOptions
-            {
-                // Only UNAVAILABLE: the server was not reached or went away. Other codes are answers about this batch.
-                ShouldHandle = new PredicateBuilder().Handle<RpcException>(e => e.StatusCode == StatusCode.Unavailable),
-                MaxRetryAttempts = options.MaxRetryAttempts,
-                BackoffType = DelayBackoffType.Exponential,
-                UseJitter = true,
-                Delay = options.RetryDelay,
-            })
-            .Build();
     }
 }

@@ -12,15 +12,36 @@ public sealed class TopicGroupsClientOptions
     public TimeSpan Timeout { get; set; } = TimeSpan.FromMinutes(10);
 
     /// <summary>
-    /// Further attempts after a call fails with UNAVAILABLE (and only then: grouping is stateless, so repeating it
-    /// is safe; a streamed batch is sent again from its first chunk). 0 turns retries off.
+    /// Further attempts after a call fails with UNAVAILABLE, or with RESOURCE_EXHAUSTED when the server said when
+    /// to come back (a google.rpc.RetryInfo: it was busy). No other status is retried. Grouping calls carry a
+    /// request id, so a retry never groups or saves twice; a streamed batch is sent again from its first chunk.
+    /// 0 turns retries off.
     /// </summary>
     /// <value>The default is 3 retries.</value>
     public int MaxRetryAttempts { get; set; } = 3;
 
-    /// <summary>Wait before the first retry; each later wait doubles, with random jitter.</summary>
+    /// <summary>
+    /// Wait before the first retry after UNAVAILABLE; each later wait doubles (at most 30 seconds), and each is
+    /// drawn at random between half and all of that ("equal jitter"). After RESOURCE_EXHAUSTED the client waits
+    /// the server's RetryInfo delay instead.
+    /// </summary>
     /// <value>The default is 250 milliseconds.</value>
     public TimeSpan RetryDelay { get; set; } = TimeSpan.FromMilliseconds(250);
+
+    /// <summary>
+    /// Total time for retrying one call, counted from its first attempt: no retry starts whose wait would end
+    /// later. The call's deadline (<see cref="Timeout"/>) still bounds the whole call.
+    /// </summary>
+    /// <value>The default is 2 minutes.</value>
+    public TimeSpan RetryBudget { get; set; } = TimeSpan.FromMinutes(2);
+
+    /// <summary>
+    /// Give every grouping call a fresh request id (a UUID) unless the caller passes one, so that its retries are
+    /// recognised by the server: a retried grouping then runs and saves once (docs/retries.md). Turn it off only for
+    /// servers older than request ids.
+    /// </summary>
+    /// <value>The default is true.</value>
+    public bool AutomaticRequestIds { get; set; } = true;
 
     /// <summary>
     /// Batches whose encoded size is above this go through the streaming call in chunks; smaller ones go in
@@ -71,6 +92,11 @@ public sealed class TopicGroupsClientOptions
             throw new ArgumentOutOfRangeException(nameof(RetryDelay), RetryDelay, "RetryDelay must be between 0 and 1 minute.");
         }
 
+        if (RetryBudget < TimeSpan.Zero)
+        {
+            throw new ArgumentOutOfRangeException(nameof(RetryBudget), RetryBudget, "RetryBudget must be 0 (no retries) or more.");
+        }
+
         if (StreamingThresholdBytes < 0)
         {
             throw new ArgumentOutOfRangeException(nameof(StreamingThresholdBytes), StreamingThresholdBytes, "StreamingThresholdBytes must be 0 (always stream) or more.");
@@ -92,6 +118,8 @@ public sealed class TopicGroupsClientOptions
             Timeout = Timeout,
             MaxRetryAttempts = MaxRetryAttempts,
             RetryDelay = RetryDelay,
+            RetryBudget = RetryBudget,
+            AutomaticRequestIds = AutomaticRequestIds,
             StreamingThresholdBytes = StreamingThresholdBytes,
             ChunkSizeBytes = ChunkSizeBytes,
             MaxResponseBytes = MaxResponseBytes,
