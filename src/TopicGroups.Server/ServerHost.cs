@@ -68,6 +68,7 @@ public static class ServerHost
             .ValidateOnStart();
 
         services.AddGrpc();
+        services.AddParseCheckedMethods();   // INVALID_ARGUMENT for requests the protobuf parser refuses (Validation/)
         services.AddAccess();   // API keys, tenants, TLS options (Security/)
 
         // Read through options (not at build time) so test hosts and later configuration sources apply.
@@ -114,7 +115,7 @@ public static class ServerHost
     {
         app.UseReceiveLimitMessage();
         AccessStartupCheck.Register(app);
-        app.MapGrpcService<TopicGroupsGrpcService>();
+        app.MapGrpcService<TopicGroupsGrpcService>().PreferParseCheckedMethods();
         app.MapGrpcHealthChecksService();
         app.MapGrpcReflectionService();
     }
