@@ -39,8 +39,9 @@ internal sealed class ParseCheckedMethodProvider : IServiceMethodProvider<TopicG
     {
         public override void AddMethod<TRequest, TResponse>(Method<TRequest, TResponse> method, UnaryServerMethod<TRequest, TResponse>? handler)
         {
-            var call = Target<UnaryServerMethod<TopicGroupsGrpcService, TRequest, TResponse>>(method.Name, typeof(TRequest), typeof(ServerCallContext));
-            context.AddUnaryMethod(Checked(method, failLater: true), Metadata(), (service, request, callContext) =>
+            var call = Implementation<UnaryServerMethod<TopicGroupsGrpcService, TRequest, TResponse>>(
+                method.Name, out List<object> metadata, typeof(TRequest), typeof(ServerCallContext));
+            context.AddUnaryMethod(Checked(method, failLater: true), metadata, (service, request, callContext) =>
                 ParseCheckedMarshaller.IsStandIn(request, out RequestParseFailure? failure)
                     ? throw failure.ToRpcException(chunk: null, elementsBefore: null)
                     : call(service, request, callContext));
@@ -48,9 +49,9 @@ internal sealed class ParseCheckedMethodProvider : IServiceMethodProvider<TopicG
 
         public override void AddMethod<TRequest, TResponse>(Method<TRequest, TResponse> method, ServerStreamingServerMethod<TRequest, TResponse>? handler)
         {
-            var call = Target<ServerStreamingServerMethod<TopicGroupsGrpcService, TRequest, TResponse>>(
-                method.Name, typeof(TRequest), typeof(IServerStreamWriter<TResponse>), typeof(ServerCallContext));
-            context.AddServerStreamingMethod(Checked(method, failLater: true), Metadata(), (service, request, responses, callContext) =>
+            var call = Implementation<ServerStreamingServerMethod<TopicGroupsGrpcService, TRequest, TResponse>>(
+                method.Name, out List<object> metadata, typeof(TRequest), typeof(IServerStreamWriter<TResponse>), typeof(ServerCallContext));
+            context.AddServerStreamingMethod(Checked(method, failLater: true), metadata, (service, request, responses, callContext) =>
                 ParseCheckedMarshaller.IsStandIn(request, out RequestParseFailure? failure)
                     ? throw failure.ToRpcException(chunk: null, elementsBefore: null)
                     : call(service, request, responses, callContext));
@@ -58,17 +59,17 @@ internal sealed class ParseCheckedMethodProvider : IServiceMethodProvider<TopicG
 
         public override void AddMethod<TRequest, TResponse>(Method<TRequest, TResponse> method, ClientStreamingServerMethod<TRequest, TResponse>? handler)
         {
-            var call = Target<ClientStreamingServerMethod<TopicGroupsGrpcService, TRequest, TResponse>>(
-                method.Name, typeof(IAsyncStreamReader<TRequest>), typeof(ServerCallContext));
-            context.AddClientStreamingMethod(Checked(method, failLater: false), Metadata(), (service, requests, callContext) =>
+            var call = Implementation<ClientStreamingServerMethod<TopicGroupsGrpcService, TRequest, TResponse>>(
+                method.Name, out List<object> metadata, typeof(IAsyncStreamReader<TRequest>), typeof(ServerCallContext));
+            context.AddClientStreamingMethod(Checked(method, failLater: false), metadata, (service, requests, callContext) =>
                 call(service, new ChunkCountingReader<TRequest>(requests), callContext));
         }
 
         public override void AddMethod<TRequest, TResponse>(Method<TRequest, TResponse> method, DuplexStreamingServerMethod<TRequest, TResponse>? handler)
         {
-            var call = Target<DuplexStreamingServerMethod<TopicGroupsGrpcService, TRequest, TResponse>>(
-                method.Name, typeof(IAsyncStreamReader<TRequest>), typeof(IServerStreamWriter<TResponse>), typeof(ServerCallContext));
-            context.AddDuplexStreamingMethod(Checked(method, failLater: false), Metadata(), (service, requests, responses, callContext) =>
+            var call = Implementation<DuplexStreamingServerMethod<TopicGroupsGrpcService, TRequest, TResponse>>(
+                method.Name, out List<object> metadata, typeof(IAsyncStreamReader<TRequest>), typeof(IServerStreamWriter<TResponse>), typeof(ServerCallContext));
+            context.AddDuplexStreamingMethod(Checked(method, failLater: false), metadata, (service, requests, responses, callContext) =>
                 call(service, new ChunkCountingReader<TRequest>(requests), responses, callContext));
         }
 
@@ -78,18 +79,25 @@ internal sealed class ParseCheckedMethodProvider : IServiceMethodProvider<TopicG
             new(method.Type, method.ServiceName, method.Name,
                 ParseCheckedMarshaller.Wrap(method.RequestMarshaller, DescriptorOf<TRequest>(), failLater), method.ResponseMarshaller);
 
-        /// <summary>The service's public override of <paramref name="name"/>, as an open delegate (as grpc-dotnet's binder makes it).</summary>
-        private static TDelegate Target<TDelegate>(string name, params Type[] parameters)
+        /// <summary>
+        /// The service's public override of <paramref name="name"/> as an open delegate, and its endpoint metadata, both
+        /// as grpc-dotnet's own binder makes them (class attributes, method attributes, POST with CORS preflight allowed),
+        /// plus the marker for the route-order convention.
+        /// </summary>
+        private static TDelegate Implementation<TDelegate>(string name, out List<object> metadata, params Type[] parameters)
             where TDelegate : Delegate
         {
-            MethodInfo method = typeof(TopicGroupsGrpcService).GetMethod(name, BindingFlags.Public | BindingFlags.Instance, parameters)
+            MethodInfo implementation = typeof(TopicGroupsGrpcService).GetMethod(name, BindingFlags.Public | BindingFlags.Instance, parameters)
                 ?? throw new InvalidOperationException($"TopicGroupsGrpcService has no public {name} to call.");
-            return method.CreateDelegate<TDelegate>();
+            metadata =
+            [
+                .. typeof(TopicGroupsGrpcService).GetCustomAttributes(inherit: true),
+                .. implementation.GetCustomAttributes(inherit: true),
+                new HttpMethodMetadata(["POST"], acceptCorsPreflight: true),
+                Marker.Instance,
+            ];
+            return implementation.CreateDelegate<TDelegate>();
         }
-
-        // As grpc-dotnet's binder: POST only (CORS preflight allowed), plus our marker for the route-order convention.
-        private static List<object> Metadata() =>
-            [.. typeof(TopicGroupsGrpcService).GetCustomAttributes(inherit: true), new HttpMethodMetadata(["POST"], acceptCorsPreflight: true), Marker.Instance];
     }
 
     internal static MessageDescriptor DescriptorOf<TMessage>() =>

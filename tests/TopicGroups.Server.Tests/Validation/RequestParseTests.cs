@@ -11,7 +11,7 @@ namespace TopicGroups.Server.Tests.Validation;
 /// <summary>
 /// Requests the protobuf parser refuses (bytes that are not UTF-8 in a string field, truncated messages), sent as raw
 /// bytes through the real gRPC path to every kind of method: each is INVALID_ARGUMENT naming the field, saves nothing,
-/// and leaves the server serving. docs/bad-input.md, rows 48 and 48a-48e.
+/// and leaves the server serving. docs/bad-input.md, rows 48-48e, 57a and 57b.
 /// </summary>
 public sealed class RequestParseTests(CatalogueHost host) : IClassFixture<CatalogueHost>
 {
