@@ -5,7 +5,32 @@ using TopicGroups.Benchmarks;
 //   gflops [n d k]      the assignment kernel's GFLOP/s per path, default 100000 384 100, plus the FMA peak
 //   fit [threads]       full fits: 20k x 384 k = 32 and 100k x 384 k = 100, 20 iterations, 1 restart
 //   seeding [threads]   the same fits with k-means++ on every row and on the seeding sample, 3 seeds each
+//   load [clients seconds [kill-after-seconds]]   N clients grouping and saving against the server process on
+//                       127.0.0.1 for a fixed time (default 8 clients, 60 s); with a third number the server is
+//                       killed then and restarted on the same SQLite file (docs/operations.md, "Load and faults")
 // Anything else goes to BenchmarkDotNet, e.g. `-- --filter *BlockScores*`.
+if (args.Length > 0 && args[0] == "load")
+{
+    var settings = new TopicGroups.Benchmarks.Load.LoadSettings
+    {
+        Clients = args.Length > 1 ? int.Parse(args[1]) : 8,
+        Duration = TimeSpan.FromSeconds(args.Length > 2 ? double.Parse(args[2]) : 60),
+        KillAfter = args.Length > 3 ? TimeSpan.FromSeconds(double.Parse(args[3])) : null,
+    };
+    string folder = Directory.CreateTempSubdirectory("topicgroups-load-").FullName;
+    try
+    {
+        var report = await TopicGroups.Benchmarks.Load.LoadRun.RunAsync(
+            settings, TopicGroups.Benchmarks.Load.ServerProcess.DefaultExecutable, folder, Console.Out);
+        Console.Write(report.ToText());
+        return report.Errors == 0 && report.RepliesWithMissingGrouping == 0 && report.RepliesWithWrongGrouping == 0 && report.UnaccountedGroupings == 0 ? 0 : 1;
+    }
+    finally
+    {
+        Directory.Delete(folder, recursive: true);
+    }
+}
+
 if (args.Length > 0 && args[0] == "gflops")
 {
     int n = args.Length > 1 ? int.Parse(args[1]) : 100_000;
