@@ -24,6 +24,9 @@ internal sealed record GroupingPlan(
 {
     /// <summary>The call's request id, recorded with the saved grouping (see RequestReplay).</summary>
     public SavedRequest? Request { get; init; }
+
+    /// <summary>SaveId was made by the server (options.save without save_as), so another may be drawn on a collision.</summary>
+    public bool ServerMadeName { get; init; }
 }
 
 /// <summary>
@@ -35,6 +38,9 @@ internal sealed class SavedGroupings(IGroupingStore store, TimeProvider time, IO
 {
     public const int DefaultPageSize = 50;
     public const int MaxPageSize = 1000;
+
+    /// <summary>Names drawn for one save (options.save without save_as) before a collision is reported.</summary>
+    private const int MadeNameAttempts = 8;
 
     private readonly TopicGroupsLimits _limits = limits.Value;
 
@@ -116,12 +122,16 @@ internal sealed class SavedGroupings(IGroupingStore store, TimeProvider time, IO
         }
 
         // Fail before computing when the name is taken; the save itself checks again (another call may be quicker).
-        if (saveId is not null && !options.ReplaceSaved && await StoreAsync(() => store.ExistsAsync(tenant, saveId, cancellationToken)))
+        // A made-up name is not checked here: the save draws another one if it collides.
+        if (saveId is not null && options.SaveAs.Length > 0 && !options.ReplaceSaved && await StoreAsync(() => store.ExistsAsync(tenant, saveId, cancellationToken)))
         {
             throw AlreadyExists(saveId);
         }
 
-        return new GroupingPlan(tenant, input, reference, minimum, options.WarmStart, saveId, options.ReplaceSaved);
+        return new GroupingPlan(tenant, input, reference, minimum, options.WarmStart, saveId, options.ReplaceSaved)
+        {
+            ServerMadeName = saveId is not null && options.SaveAs.Length == 0,
+        };
     }
 
     /// <summary>Applies continuity when a reference was named, saves when asked, and builds the reply.</summary>
@@ -142,21 +152,32 @@ internal sealed class SavedGroupings(IGroupingStore store, TimeProvider time, IO
             GroupingSnapshot snapshot = GroupingSnapshot.Capture(final, plan.Input.Options, continued?.HighestGroupId ?? 0);
             var options = plan.Input.Options with { GroupCount = final.Groups.Count, InitialCentroids = null };
             var saved = new SavedGrouping(id, time.GetUtcNow(), snapshot, options) { Request = plan.Request };
-            try
+            for (int attempt = 1; ; attempt++)
             {
-                await StoreAsync(async () =>
+                try
                 {
-                    await store.SaveAsync(plan.Tenant, saved, plan.Replace, cancellationToken);
-                    return true;
-                });
-            }
-            catch (GroupingExistsException)
-            {
-                throw AlreadyExists(id);
-            }
-            catch (RequestAlreadySavedException earlier)
-            {
-                id = earlier.Id;   // a retry of this request saved it first; name that grouping, save nothing more
+                    await StoreAsync(async () =>
+                    {
+                        await store.SaveAsync(plan.Tenant, saved, plan.Replace, cancellationToken);
+                        return true;
+                    });
+                    break;
+                }
+                catch (GroupingExistsException) when (plan.ServerMadeName && attempt < MadeNameAttempts)
+                {
+                    // Two saves in one second drew the same made-up name (seen under load): draw another.
+                    id = GroupingNames.MakeId(time.GetUtcNow());
+                    saved = saved with { Id = id };
+                }
+                catch (GroupingExistsException)
+                {
+                    throw AlreadyExists(id);
+                }
+                catch (RequestAlreadySavedException earlier)
+                {
+                    id = earlier.Id;   // a retry of this request saved it first; name that grouping, save nothing more
+                    break;
+                }
             }
 
             response.SavedGroupingName = GroupingNames.NameOf(id);
