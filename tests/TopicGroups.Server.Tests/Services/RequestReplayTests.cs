@@ -1,4 +1,5 @@
 using Grpc.Core;
+using Grpc.Core.Interceptors;
 using Microsoft.Data.Sqlite;
 using TopicGroups.Protos.V1;
 using Xunit;
@@ -154,6 +155,33 @@ public sealed class RequestReplayTests : IDisposable
     {
         ["TopicGroups:RequestReplay:MaxEntries"] = maxEntries.ToString(System.Globalization.CultureInfo.InvariantCulture),
     });
+
+    [Fact]
+    public async Task GroupDocuments_SameRequestIdInTwoTenants_EachRunsAndSavesInItsOwnTenant()
+    {
+        string alphaKey = Security.AccessKeys.NewKey(), betaKey = Security.AccessKeys.NewKey();
+        _host.Dispose();
+        _host = new ConfiguredHost(DatabasePath, Security.AccessKeys.Settings(("alpha", alphaKey), ("beta", betaKey)));
+        TopicGroupsService.TopicGroupsServiceClient alpha = ClientWith(alphaKey), beta = ClientWith(betaKey);
+
+        GroupDocumentsResponse alphaReply = await alpha.GroupDocumentsAsync(SmallRequest("shared-7"));
+        GroupDocumentsResponse betaReply = await beta.GroupDocumentsAsync(SmallRequest("shared-7", seed: Seed + 3));   // other content: no clash
+        GroupDocumentsResponse betaRetried = await beta.GroupDocumentsAsync(SmallRequest("shared-7", seed: Seed + 3));
+
+        Assert.Equal(betaReply, betaRetried);   // within a tenant the id still replays
+        Assert.Equal(alphaReply.SavedGroupingName, Assert.Single((await alpha.ListGroupingsAsync(new ListGroupingsRequest())).Groupings).Name);
+        Assert.Equal(betaReply.SavedGroupingName, Assert.Single((await beta.ListGroupingsAsync(new ListGroupingsRequest())).Groupings).Name);
+    }
+
+    private TopicGroupsService.TopicGroupsServiceClient ClientWith(string key) =>
+        new(_host.Channel.Intercept(headers =>
+        {
+            headers.Add("authorization", "Bearer " + key);
+            return headers;
+        }));
+
+    private sealed class ConfiguredHost(string sqlitePath, Dictionary<string, string> settings)
+        : StoreTestHost(sqlitePath, settings.ToDictionary(pair => pair.Key, pair => (string?)pair.Value));
 
     [Fact]
     public async Task GroupDocuments_SameRequestIdOtherDocuments_InvalidArgumentNamingRequestId()
