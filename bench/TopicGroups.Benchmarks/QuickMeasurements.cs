@@ -119,7 +119,8 @@ internal static class QuickMeasurements
     /// Variants of a fit on one matrix, interleaved (for each seed, every variant in turn) so that load drift on a
     /// shared machine hits them alike: median wall and process CPU seconds, seeding seconds, final reassigned
     /// objective. A variant name holds tokens: "plain" (k-means++ without candidates), "all" (seed on every row),
-    /// "noprune" (every pass scores every row), "force" (prune whatever k and however far centroids move).
+    /// "noprune" (every pass scores every row), "force" (prune whatever k and however far centroids move),
+    /// "fromN" (prune from N groups up, once centroids move little, as the default does from PruningMinimumGroups).
     /// </summary>
     public static void Study(EmbeddingMatrix matrix, int k, int iterations, ulong seeds, int threads)
     {
@@ -141,6 +142,7 @@ internal static class QuickMeasurements
                     SeedCandidates = variant.Contains("plain") ? 1 : 0,
                     DisablePruning = variant.Contains("noprune"),
                     ForcePruning = variant.Contains("force"),
+                    PruningFromGroups = variant.Contains("from") ? int.Parse(variant[(variant.IndexOf("from") + 4)..].Split('-')[0]) : SphericalKMeansOptions.PruningMinimumGroups,
                     SeedingSampleRowsPerGroup = variant.Contains("per") ? int.Parse(variant[(variant.IndexOf("per") + 3)..].Split('-')[0]) : SeedingPool.SampleRowsPerGroup,
                 };
                 options = StudyOptions(options, variant);
@@ -181,6 +183,20 @@ internal static class QuickMeasurements
     /// </summary>
     public static void Profile(EmbeddingMatrix matrix, int k, int iterations, ulong seed, int threads, bool pruning)
     {
+        // Untimed warm-up on the first rows, as `topicgroups bench` does, so the figures show compiled code, not the JIT.
+        int warmRows = Math.Min(matrix.Rows, 4096);
+        var warm = new EmbeddingMatrix(matrix.Values.AsSpan(0, warmRows * matrix.Dimensions).ToArray(), warmRows, matrix.Dimensions);
+        for (int round = 0; round < 2; round++)
+        {
+            ProfileOnce(warm, Math.Min(k, warmRows / 4), iterations, seed, threads, pruning, print: false);
+            Thread.Sleep(300);
+        }
+
+        ProfileOnce(matrix, k, iterations, seed, threads, pruning, print: true);
+    }
+
+    private static void ProfileOnce(EmbeddingMatrix matrix, int k, int iterations, ulong seed, int threads, bool pruning, bool print)
+    {
         var options = new SphericalKMeansOptions { GroupCount = k, Seed = seed, MaxDegreeOfParallelism = threads };
         long start = Stopwatch.GetTimestamp();
         var ws = new ClusteringWorkspace(matrix, k, threads, sampleForSeeding: true, options.ResolveSeedCandidates(), pruning);
@@ -195,6 +211,8 @@ internal static class QuickMeasurements
         double seeding = Stopwatch.GetElapsedTime(start).TotalSeconds;
 
         double assign = 0, sizes = 0, repair = 0, update = 0;
+        using var process = Process.GetCurrentProcess();
+        TimeSpan cpuBefore = process.TotalProcessorTime;
         Array.Fill(ws.Assignments, -1);
         double objective = 0;
         var perIteration = new List<string>();
@@ -221,11 +239,18 @@ internal static class QuickMeasurements
             perIteration.Add($"{iteration}:{reassigned}:{stages}[{Stopwatch.GetElapsedTime(t0, t1).TotalMilliseconds:F0}ms]");
         }
 
+        process.Refresh();
+        double iterationsCpu = (process.TotalProcessorTime - cpuBefore).TotalSeconds;
         start = Stopwatch.GetTimestamp();
         GroupAssignment.ScoreAssigned(ws);
         double score = Stopwatch.GetElapsedTime(start).TotalSeconds;
         double total = setup + draw + seeding + assign + sizes + repair + update + score;
         double flops = 2.0 * matrix.Rows * matrix.Dimensions * k;
+        if (!print)
+        {
+            return;
+        }
+
         Console.WriteLine($"profile {matrix.Rows} x {matrix.Dimensions}, k = {k}, {iterations} iterations, {threads} thread(s), seed {seed}, pruning {(pruning ? "on" : "off")}: total {total:F3} s, objective {objective:F5}");
         Console.WriteLine($"  workspace   {setup,7:F3} s");
         Console.WriteLine($"  sample draw {draw,7:F3} s");
@@ -234,6 +259,7 @@ internal static class QuickMeasurements
         Console.WriteLine($"  sizes       {sizes,7:F3} s");
         Console.WriteLine($"  repair      {repair,7:F3} s");
         Console.WriteLine($"  update      {update,7:F3} s  ({update / iterations * 1000:F1} ms per iteration)");
+        Console.WriteLine($"  iterations  {iterationsCpu,7:F3} s of process CPU time (all threads)");
         Console.WriteLine($"  final score {score,7:F3} s");
         Console.WriteLine($"  iteration:reassigned:bounds/jumpers/near/full[ms]: {string.Join(' ', perIteration)}");
     }

@@ -5,12 +5,12 @@ namespace TopicGroups.Core.Clustering;
 /// <summary>
 /// What a pruned assignment pass keeps between iterations (see <see cref="GroupAssignment"/>): per row, bounds
 /// on its cosines and the centroids that were nearest at its last full scoring; per centroid, how far it moved.
-/// Shapes: n rows, k centroids of d dimensions. Allocated once per fit: 4 floats, 4 ints per row.
+/// Shapes: n rows, k centroids of d dimensions. Allocated once per fit: 7 floats, 4 ints per row.
 /// </summary>
 internal sealed class AssignmentBounds
 {
     /// <summary>Centroids tracked by name per row: its most similar ones at its last full scoring.</summary>
-    public const int NearCount = 4;
+    public const int NearCount = 8;
 
     /// <summary>Most centroids treated as jumpers in one pass: one Vector512 of columns in the kernel's panel.</summary>
     public const int MaxJumpers = CentroidPanel.ColumnAlignment;
@@ -21,6 +21,7 @@ internal sealed class AssignmentBounds
         OtherUpper = new float[n];
         FarUpper = new float[n];
         Near = new int[checked(n * NearCount)];
+        NearUpper = new float[checked(n * NearCount)];
         PreviousCentroids = new float[k * d];
         Angle = new double[k];
         Cos = new double[k];
@@ -63,6 +64,13 @@ internal sealed class AssignmentBounds
 
     /// <summary>Per row, NearCount entries, best first: the most similar centroids at its last full scoring (−1: none). Own is always among them.</summary>
     public int[] Near { get; }
+
+    /// <summary>
+    /// Per row, NearCount entries beside <see cref="Near"/>: an upper bound on its cosine to each near centroid (the
+    /// entry of its own centroid is unused). Each moves by that centroid's own move, not the largest of all (Elkan,
+    /// 2003, kept for the near centroids only): late in a run most centroids stand still, so these bounds stay exact.
+    /// </summary>
+    public float[] NearUpper { get; }
 
     /// <summary>The centroids the bounds refer to, k × d.</summary>
     public float[] PreviousCentroids { get; }

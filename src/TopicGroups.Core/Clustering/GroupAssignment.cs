@@ -7,11 +7,12 @@ namespace TopicGroups.Core.Clustering;
 /// <remarks>
 /// Pruning (when the workspace has <see cref="AssignmentBounds"/>): Hamerly's bounds (Hamerly, 2010) in the
 /// cosine form of Schubert, Lang &amp; Feher (2021, "Accelerating spherical k-means"). Each row keeps a lower
-/// bound l on its cosine to its own centroid and an upper bound u on its cosine to any other. When centroid c
-/// moves by the angle θ_c, angles obey the triangle inequality on the sphere, so l becomes cos(arccos l + θ_own)
-/// and u becomes cos(max(0, arccos u − θ)), θ the largest move among the other centroids. A pass then settles
-/// each row by the cheapest test that proves its group:
-/// (1) bounds alone (nothing read but three floats);
+/// bound l on its cosine to its own centroid, an upper bound on its cosine to each of its few near centroids
+/// (Elkan's per-centroid bounds, Elkan 2003, kept for those only) and one upper bound on all the others. When
+/// centroid c moves by the angle θ_c, angles obey the triangle inequality on the sphere, so l becomes
+/// cos(arccos l + θ_own) and an upper bound u becomes cos(max(0, arccos u − θ)): θ_c for a near centroid, the
+/// largest move for all the others. A pass then settles each row by the cheapest test that proves its group:
+/// (1) bounds alone (a few floats per row; late in a run most centroids stand still, so the near bounds stay tight);
 /// (2) bounds plus exact scores against the few "jumpers", centroids that moved far more than the rest, so that
 ///     one big jump does not loosen every row's bound (scored for the undecided rows in one narrow panel);
 /// (3) exact cosines to the row's near centroids (its most similar ones at its last full scoring) against a
@@ -88,6 +89,8 @@ internal static class GroupAssignment
     /// </summary>
     private const double PruneBelowMedianMove = 0.015;
 
+    internal static double JumperMinimumMove = double.Parse(Environment.GetEnvironmentVariable("TG_JUMP") ?? "0.02", System.Globalization.CultureInfo.InvariantCulture);
+
     /// <summary>
     /// Slack kept between the two sides of every pruning test, for dimension d: 4 (d + 2) · 2⁻²⁴. A float32 score
     /// of unit vectors is within d · 2⁻²⁴ of the exact cosine (the error bound of a d-term FMA chain, Higham,
@@ -140,9 +143,8 @@ internal static class GroupAssignment
         int[] order = bounds.ByAngle;
         bounds.AllLargest = Largest(bounds, order, 0);
 
-        // The jumper panel costs the same for 1 or 16 columns, so take the 16 largest moves (when anything moved noticeably).
-        const double minimumJump = 0.002;
-        int jumpers = bounds.Angle[order[0]] > minimumJump ? Math.Min(k, AssignmentBounds.MaxJumpers) : 0;
+        // The jumper panel costs the same for 1 or 16 columns, so take the 16 largest moves (when anything moved far).
+        int jumpers = bounds.Angle[order[0]] > JumperMinimumMove ? Math.Min(k, AssignmentBounds.MaxJumpers) : 0;
 
         Array.Fill(bounds.JumperSlot, -1);
         bounds.JumperCount = jumpers;
@@ -195,6 +197,7 @@ internal static class GroupAssignment
     [MethodImpl(MethodImplOptions.AggressiveOptimization)]
     private static void AssignBlockPruned(ClusteringWorkspace ws, AssignmentBounds bounds, int block, int worker)
     {
+        const int nearCount = AssignmentBounds.NearCount;
         int d = ws.D;
         int k = ws.K;
         int start = ws.Blocks.Start(block);
@@ -203,26 +206,71 @@ internal static class GroupAssignment
         float[] lower = bounds.OwnLower;
         float[] upper = bounds.OtherUpper;
         float[] far = bounds.FarUpper;
+        int[] near = bounds.Near;
+        float[] nearUpper = bounds.NearUpper;
+        double[] moveCos = bounds.Cos;
+        double[] moveSin = bounds.Sin;
         int[] assignments = ws.Assignments;
         float[] gathered = bounds.GatherRows[worker];
         int[] indices = bounds.GatherIndices[worker];
         var all = bounds.AllLargest;
+        Span<float> nearMoved = stackalloc float[nearCount];
 
-        // (1) Bounds alone.
+        bool withJumpers = bounds.JumperCount > 0;
+        int reassigned = 0;
+        int settledByNear = 0;
+
+        // (1) Bounds alone: the own centroid and each near one by its own move, all others by the largest move.
         int gatheredCount = 0;
         for (int i = start; i < start + length; i++)
         {
             int own = assignments[i];
-            float l = (float)MovedLowerBound(lower[i], bounds.Cos[own], bounds.Sin[own]);
-            float u = own == all.Index
-                ? (float)MovedUpperBound(upper[i], all.SecondCos, all.SecondSin)
-                : (float)MovedUpperBound(upper[i], all.Cos, all.Sin);
+            int nearBase = i * nearCount;
+            float l = (float)MovedLowerBound(lower[i], moveCos[own], moveSin[own]);
+            float farMoved = own == all.Index
+                ? (float)MovedUpperBound(far[i], all.SecondCos, all.SecondSin)
+                : (float)MovedUpperBound(far[i], all.Cos, all.Sin);
+            float u = farMoved;
+            for (int t = 0; t < nearCount; t++)
+            {
+                int c = near[nearBase + t];
+                if (c < 0)
+                {
+                    break;
+                }
+
+                if (c != own)
+                {
+                    nearMoved[t] = (float)MovedUpperBound(nearUpper[nearBase + t], moveCos[c], moveSin[c]);
+                    u = MathF.Max(u, nearMoved[t]);
+                }
+            }
+
             if (l - u > margin)
             {
                 lower[i] = l;
                 upper[i] = u;
-                far[i] = (float)MovedUpperBound(far[i], all.Cos, all.Sin);
+                far[i] = farMoved;
+                for (int t = 0; t < nearCount && near[nearBase + t] >= 0; t++)
+                {
+                    if (near[nearBase + t] != own)
+                    {
+                        nearUpper[nearBase + t] = nearMoved[t];
+                    }
+                }
+
                 continue;
+            }
+
+            // No jumpers (every centroid moved little): the near test straight from the row, no copy; only
+            // rows it cannot settle are gathered, for the full product.
+            if (!withJumpers)
+            {
+                if (SettleByNear(ws, bounds, i, ws.Row(i), own, farMoved, [], margin, ref reassigned))
+                {
+                    settledByNear++;
+                    continue;
+                }
             }
 
             ws.Row(i).CopyTo(gathered.AsSpan(gatheredCount * d, d));
@@ -237,21 +285,20 @@ internal static class GroupAssignment
         }
 
         var stable = bounds.StableLargest;
-        int reassigned = 0;
         int settledByJumpers = 0;
-        int settledByNear = 0;
-        int fullCount = 0;
-        Span<int> nearHere = stackalloc int[AssignmentBounds.NearCount];
-        for (int g = 0; g < gatheredCount; g++)
+        int fullCount = withJumpers ? 0 : gatheredCount;
+        Span<int> nearHere = stackalloc int[nearCount];
+        for (int g = 0; withJumpers && g < gatheredCount; g++)
         {
             int i = indices[g];
             int own = assignments[i];
+            int nearBase = i * nearCount;
             ReadOnlySpan<float> jumperRow = jumperScores.AsSpan(g * AssignmentBounds.MaxJumpers, jumpers);
 
             // (2) Stable centroids by their (smaller) moves, jumpers by exact scores.
             float farStable = (float)MovedUpperBound(far[i], stable.Cos, stable.Sin);
             int ownSlot = bounds.JumperSlot[own];
-            bounds.Near.AsSpan(i * AssignmentBounds.NearCount, AssignmentBounds.NearCount).CopyTo(nearHere);
+            near.AsSpan(nearBase, nearCount).CopyTo(nearHere);
             float farJumperMax = float.NegativeInfinity;
             for (int slot = 0; slot < jumpers; slot++)
             {
@@ -261,62 +308,43 @@ internal static class GroupAssignment
                 }
             }
 
+            float farNow = MathF.Max(farStable, farJumperMax);
             if (jumpers > 0)
             {
-                float otherStable = own == stable.Index
-                    ? (float)MovedUpperBound(upper[i], stable.SecondCos, stable.SecondSin)
-                    : (float)MovedUpperBound(upper[i], stable.Cos, stable.Sin);
-                float l = ownSlot >= 0 ? jumperRow[ownSlot] : (float)MovedLowerBound(lower[i], bounds.Cos[own], bounds.Sin[own]);
-                float jumperMax = float.NegativeInfinity;
-                for (int slot = 0; slot < jumpers; slot++)
+                float l = ownSlot >= 0 ? jumperRow[ownSlot] : (float)MovedLowerBound(lower[i], moveCos[own], moveSin[own]);
+                float u = farNow;
+                for (int t = 0; t < nearCount && nearHere[t] >= 0; t++)
                 {
-                    if (slot != ownSlot)
+                    int c = nearHere[t];
+                    if (c != own)
                     {
-                        jumperMax = MathF.Max(jumperMax, jumperRow[slot]);
+                        int slot = bounds.JumperSlot[c];
+                        nearMoved[t] = slot >= 0 ? jumperRow[slot] : (float)MovedUpperBound(nearUpper[nearBase + t], moveCos[c], moveSin[c]);
+                        u = MathF.Max(u, nearMoved[t]);
                     }
                 }
 
-                float u = MathF.Max(otherStable, jumperMax);
                 if (l - u > margin)
                 {
                     lower[i] = l;
                     upper[i] = u;
-                    far[i] = MathF.Max(farStable, farJumperMax);
+                    far[i] = farNow;
+                    for (int t = 0; t < nearCount && nearHere[t] >= 0; t++)
+                    {
+                        if (nearHere[t] != own)
+                        {
+                            nearUpper[nearBase + t] = nearMoved[t];
+                        }
+                    }
+
                     settledByJumpers++;
                     continue;
                 }
             }
 
             // (3) Exact cosines to the near centroids (own among them); jumpers outside the list by their exact scores.
-            ReadOnlySpan<float> row = gathered.AsSpan(g * d, d);
-            int best = -1;
-            float bestScore = float.NegativeInfinity;
-            int second = -1;
-            float secondScore = float.NegativeInfinity;
-            for (int t = 0; t < nearHere.Length && nearHere[t] >= 0; t++)
+            if (SettleByNear(ws, bounds, i, gathered.AsSpan(g * d, d), own, farNow, jumperRow, margin, ref reassigned))
             {
-                int c = nearHere[t];
-                int slot = bounds.JumperSlot[c];
-                float score = slot >= 0 ? jumperRow[slot] : DotProduct.Dot(row, ws.Centroids.AsSpan(c * d, d));
-                Rank(c, score, ref best, ref bestScore, ref second, ref secondScore);
-            }
-
-            // The winner must beat the runner-up among the near ones, every jumper outside the list and the bound on the rest.
-            float rivals = MathF.Max(secondScore, MathF.Max(farJumperMax, farStable));
-            if (best >= 0 && bestScore - rivals > margin)
-            {
-                if (best != own)
-                {
-                    assignments[i] = best;
-                    reassigned++;
-                }
-
-                lower[i] = bestScore;
-                upper[i] = rivals;
-                far[i] = MathF.Max(farStable, farJumperMax);
-                ws.Similarities[i] = bestScore;
-                ws.RunnerUpGroups[i] = second;
-                ws.RunnerUpSimilarities[i] = secondScore;
                 settledByNear++;
                 continue;
             }
@@ -342,10 +370,61 @@ internal static class GroupAssignment
         }
 
         ws.BlockReassigned[block] = reassigned;
-        bounds.Skipped[block] = length - gatheredCount;
+        bounds.Skipped[block] = length - gatheredCount - (withJumpers ? 0 : settledByNear);
         bounds.SettledByJumpers[block] = settledByJumpers;
         bounds.SettledByNear[block] = settledByNear;
         bounds.Scored[block] = fullCount;
+    }
+
+    /// <summary>
+    /// Test (3) for row i: exact cosines to its near centroids (jumpers among them by their scores in jumperRow)
+    /// against <paramref name="farNow"/>, a bound on every other centroid. When the winner clears the runner-up and
+    /// that bound by the margin, records the row (group, cosines, bounds) and returns true.
+    /// </summary>
+    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
+    private static bool SettleByNear(
+        ClusteringWorkspace ws, AssignmentBounds bounds, int i, ReadOnlySpan<float> row, int own, float farNow, ReadOnlySpan<float> jumperRow, float margin, ref int reassigned)
+    {
+        const int nearCount = AssignmentBounds.NearCount;
+        int d = ws.D;
+        int nearBase = i * nearCount;
+        int[] near = bounds.Near;
+        Span<float> nearScores = stackalloc float[nearCount];
+        int best = -1;
+        float bestScore = float.NegativeInfinity;
+        int second = -1;
+        float secondScore = float.NegativeInfinity;
+        int t = 0;
+        for (; t < nearCount && near[nearBase + t] >= 0; t++)
+        {
+            int c = near[nearBase + t];
+            int slot = bounds.JumperSlot[c];
+            float score = slot >= 0 ? jumperRow[slot] : DotProduct.Dot(row, ws.Centroids.AsSpan(c * d, d));
+            nearScores[t] = score;
+            Rank(c, score, ref best, ref bestScore, ref second, ref secondScore);
+        }
+
+        // The winner must beat the runner-up among the near ones and the bound on the rest.
+        float rivals = MathF.Max(secondScore, farNow);
+        if (best < 0 || !(bestScore - rivals > margin))
+        {
+            return false;
+        }
+
+        if (best != own)
+        {
+            ws.Assignments[i] = best;
+            reassigned++;
+        }
+
+        bounds.OwnLower[i] = bestScore;
+        bounds.OtherUpper[i] = rivals;
+        bounds.FarUpper[i] = farNow;
+        nearScores[..t].CopyTo(bounds.NearUpper.AsSpan(nearBase, t));
+        ws.Similarities[i] = bestScore;
+        ws.RunnerUpGroups[i] = second;
+        ws.RunnerUpSimilarities[i] = secondScore;
+        return true;
     }
 
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
@@ -459,6 +538,7 @@ internal static class GroupAssignment
         }
 
         top[..near].CopyTo(bounds.Near.AsSpan(i * near, near));
+        topScores[..near].CopyTo(bounds.NearUpper.AsSpan(i * near, near));
         bounds.FarUpper[i] = top[near] >= 0 ? topScores[near] : -1f;
         bounds.OwnLower[i] = topScores[0];
         bounds.OtherUpper[i] = rowScores.Length == 1 ? -1f : topScores[1];

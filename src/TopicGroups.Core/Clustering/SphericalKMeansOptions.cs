@@ -81,7 +81,10 @@ public sealed record SphericalKMeansOptions
     /// <summary>Seeding sample rows per group (see SeedingPool); for comparisons and benchmarks.</summary>
     internal int SeedingSampleRowsPerGroup { get; init; } = SeedingPool.SampleRowsPerGroup;
 
-    internal bool ResolvePruning() => !DisablePruning && (ForcePruning || GroupCount >= PruningMinimumGroups);
+    /// <summary>Fewest groups at which passes use bounds, for comparisons and benchmarks; see <see cref="PruningMinimumGroups"/>.</summary>
+    internal int PruningFromGroups { get; init; } = PruningMinimumGroups;
+
+    internal bool ResolvePruning() => !DisablePruning && (ForcePruning || GroupCount >= PruningFromGroups);
 
     internal int ResolveSeedCandidates() => SeedCandidates > 0 ? SeedCandidates : KMeansPlusPlusSeeding.DefaultCandidates(GroupCount);
 

@@ -53,6 +53,40 @@ public sealed class GroupAssignmentTests
         }
     }
 
+    [Theory]
+    [InlineData(16)]
+    [InlineData(32)]
+    [InlineData(100)]
+    public void AssignAll_GatedPruningAtEachGroupCount_SameAsFullAndUsesEveryTest(int k)
+    {
+        // The default gate (prune once the median centroid barely moves), not forced: the path fits take.
+        EmbeddingMatrix rows = Overlapping(n: 6000, trueGroups: k);
+        ClusteringWorkspace full = SeededWorkspace(rows, k, workers: 2, pruning: false);
+        ClusteringWorkspace pruned = SeededWorkspace(rows, k, workers: 2, pruning: true);
+        pruned.Bounds!.AlwaysPrune = false;
+
+        int prunedPasses = 0, byBounds = 0, byJumpers = 0, byNearWithoutJumpers = 0;
+        for (int iteration = 1; iteration <= 30; iteration++)
+        {
+            Iterate(full);
+            int scored = Iterate(pruned);
+            Assert.True(full.Assignments.SequenceEqual(pruned.Assignments), $"k = {k}: assignments differ at iteration {iteration}");
+            Assert.True(full.Centroids.SequenceEqual(pruned.Centroids), $"k = {k}: centroids differ at iteration {iteration}");
+            if (scored < rows.Rows)
+            {
+                AssignmentBounds b = pruned.Bounds!;
+                prunedPasses++;
+                byBounds += b.Skipped.Sum();
+                byJumpers += b.SettledByJumpers.Sum();
+                byNearWithoutJumpers += b.JumperCount == 0 ? b.SettledByNear.Sum() : 0;
+            }
+        }
+
+        Assert.True(prunedPasses > 0, $"k = {k}: no pass was pruned");
+        Assert.True(byBounds > 0, $"k = {k}: no row settled by bounds alone");
+        Assert.True(byNearWithoutJumpers > 0 || byJumpers > 0, $"k = {k}: no row settled by the near or jumper tests");
+    }
+
     [Fact]
     public void AssignAll_LateIterations_ScoreFewerRowsInFull()
     {
@@ -100,9 +134,16 @@ public sealed class GroupAssignmentTests
 
                 double cosine = Cosine(rows.Row(i), bounds.PreviousCentroids.AsSpan(c * d, d));
                 Assert.True(bounds.OtherUpper[i] >= cosine - 1e-5, $"row {i}: upper bound {bounds.OtherUpper[i]} < cosine {cosine} to centroid {c}");
-                if (!near.Contains(c))
+                int nearSlot = near.IndexOf(c);
+                if (nearSlot < 0)
                 {
                     Assert.True(bounds.FarUpper[i] >= cosine - 1e-5, $"row {i}: far bound {bounds.FarUpper[i]} < cosine {cosine} to centroid {c}");
+                }
+                else
+                {
+                    float nearBound = bounds.NearUpper[i * AssignmentBounds.NearCount + nearSlot];
+                    Assert.True(nearBound >= cosine - 1e-5, $"row {i}: near bound {nearBound} < cosine {cosine} to near centroid {c}");
+                    Assert.True(nearBound <= bounds.OtherUpper[i] + 1e-6, $"row {i}: near bound {nearBound} above the bound on all others {bounds.OtherUpper[i]}");
                 }
             }
         }
