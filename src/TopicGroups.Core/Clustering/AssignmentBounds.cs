@@ -10,7 +10,7 @@ namespace TopicGroups.Core.Clustering;
 internal sealed class AssignmentBounds
 {
     /// <summary>Centroids tracked by name per row: its most similar ones at its last full scoring.</summary>
-    public const int NearCount = 8;
+    public const int NearCount = 4;
 
     /// <summary>Most centroids treated as jumpers in one pass: one Vector512 of columns in the kernel's panel.</summary>
     public const int MaxJumpers = CentroidPanel.ColumnAlignment;

@@ -1,4 +1,7 @@
+using System.Numerics;
 using System.Runtime.CompilerServices;
+using System.Runtime.InteropServices;
+using System.Runtime.Intrinsics;
 using TopicGroups.Core.Vectors;
 
 namespace TopicGroups.Core.Clustering;
@@ -87,7 +90,7 @@ internal static class GroupAssignment
     /// 0.057, 0.031 and 0.019 took 124, 81 and 89 ms against 81–92 ms for a full pass; at 0.014 they took 72 ms and
     /// from 0.009 down 28–46 ms.
     /// </summary>
-    private const double PruneBelowMedianMove = 0.015;
+    private static readonly double PruneBelowMedianMove = double.Parse(Environment.GetEnvironmentVariable("TG_GATE") ?? "0.015", System.Globalization.CultureInfo.InvariantCulture);
 
     internal static double JumperMinimumMove = double.Parse(Environment.GetEnvironmentVariable("TG_JUMP") ?? "0.02", System.Globalization.CultureInfo.InvariantCulture);
 
@@ -273,15 +276,32 @@ internal static class GroupAssignment
                 }
             }
 
-            ws.Row(i).CopyTo(gathered.AsSpan(gatheredCount * d, d));
+            if (!withJumpers)
+            {
+                ws.Row(i).CopyTo(gathered.AsSpan(gatheredCount * d, d));
+            }
+
             indices[gatheredCount++] = i;
         }
+
+        // With jumpers, the undecided rows are scored against them in one product: when no row of the block was
+        // settled (early passes) the block's own rows serve, otherwise the undecided ones are copied together.
+        bool inPlace = withJumpers && gatheredCount == length;
+        if (withJumpers && !inPlace)
+        {
+            for (int g = 0; g < gatheredCount; g++)
+            {
+                ws.Row(indices[g]).CopyTo(gathered.AsSpan(g * d, d));
+            }
+        }
+
+        ReadOnlySpan<float> undecided = inPlace ? ws.Rows.AsSpan(start * d, length * d) : gathered.AsSpan(0, gatheredCount * d);
 
         int jumpers = bounds.JumperCount;
         float[] jumperScores = bounds.JumperScores[worker];
         if (jumpers > 0 && gatheredCount > 0)
         {
-            BlockScores.Compute(gathered.AsSpan(0, gatheredCount * d), bounds.JumperPanel, jumperScores, AssignmentBounds.MaxJumpers);
+            BlockScores.Compute(undecided, bounds.JumperPanel, jumperScores, AssignmentBounds.MaxJumpers);
         }
 
         var stable = bounds.StableLargest;
@@ -302,7 +322,7 @@ internal static class GroupAssignment
             float farJumperMax = float.NegativeInfinity;
             for (int slot = 0; slot < jumpers; slot++)
             {
-                if (!nearHere.Contains(bounds.Jumpers[slot]))
+                if (!IsNear(nearHere, bounds.Jumpers[slot]))
                 {
                     farJumperMax = MathF.Max(farJumperMax, jumperRow[slot]);
                 }
@@ -343,16 +363,16 @@ internal static class GroupAssignment
             }
 
             // (3) Exact cosines to the near centroids (own among them); jumpers outside the list by their exact scores.
-            if (SettleByNear(ws, bounds, i, gathered.AsSpan(g * d, d), own, farNow, jumperRow, margin, ref reassigned))
+            if (SettleByNear(ws, bounds, i, undecided.Slice(g * d, d), own, farNow, jumperRow, margin, ref reassigned))
             {
                 settledByNear++;
                 continue;
             }
 
             // (4) Score in full: compact the undecided rows to the front of the gather buffer.
-            if (fullCount != g)
+            if (inPlace || fullCount != g)
             {
-                gathered.AsSpan(g * d, d).CopyTo(gathered.AsSpan(fullCount * d, d));
+                undecided.Slice(g * d, d).CopyTo(gathered.AsSpan(fullCount * d, d));
                 indices[fullCount] = i;
             }
 
@@ -491,7 +511,23 @@ internal static class GroupAssignment
         float bestScore = rowScores[0];
         int second = 0;
         float secondScore = float.NegativeInfinity;
-        for (int j = 1; j < rowScores.Length; j++)
+        int j = 1;
+        if (Vector512.IsHardwareAccelerated)
+        {
+            // Only scores above the runner-up can change anything, and the runner-up only rises: skip 16 at a time.
+            ref float first = ref MemoryMarshal.GetReference(rowScores);
+            for (; j + Vector512<float>.Count <= rowScores.Length; j += Vector512<float>.Count)
+            {
+                ulong above = Vector512.GreaterThan(Vector512.LoadUnsafe(ref first, (nuint)j), Vector512.Create(secondScore)).ExtractMostSignificantBits();
+                for (; above != 0; above &= above - 1)
+                {
+                    int c = j + BitOperations.TrailingZeroCount(above);
+                    Rank(c, rowScores[c], ref best, ref bestScore, ref second, ref secondScore);
+                }
+            }
+        }
+
+        for (; j < rowScores.Length; j++)
         {
             Rank(j, rowScores[j], ref best, ref bestScore, ref second, ref secondScore);
         }
@@ -517,24 +553,30 @@ internal static class GroupAssignment
         Span<float> topScores = stackalloc float[tracked];
         top.Fill(-1);
         topScores.Fill(float.NegativeInfinity);
-        for (int j = 0; j < rowScores.Length; j++)
+        int j = 0;
+        if (Vector512.IsHardwareAccelerated && tracked <= Vector256<float>.Count)
         {
-            float score = rowScores[j];
-            if (!(score > topScores[tracked - 1]))
+            TopByLanes(rowScores, top, topScores);
+            j = rowScores.Length;
+        }
+        else if (Vector512.IsHardwareAccelerated)
+        {
+            // Only scores above the last kept one enter, and that one only rises: skip 16 scores at a time.
+            ref float first = ref MemoryMarshal.GetReference(rowScores);
+            for (; j + Vector512<float>.Count <= rowScores.Length; j += Vector512<float>.Count)
             {
-                continue;
+                ulong above = Vector512.GreaterThan(Vector512.LoadUnsafe(ref first, (nuint)j), Vector512.Create(topScores[tracked - 1])).ExtractMostSignificantBits();
+                for (; above != 0; above &= above - 1)
+                {
+                    int c = j + BitOperations.TrailingZeroCount(above);
+                    KeepIfTop(top, topScores, c, rowScores[c]);
+                }
             }
+        }
 
-            int slot = tracked - 1;
-            while (slot > 0 && score > topScores[slot - 1])
-            {
-                top[slot] = top[slot - 1];
-                topScores[slot] = topScores[slot - 1];
-                slot--;
-            }
-
-            top[slot] = j;
-            topScores[slot] = score;
+        for (; j < rowScores.Length; j++)
+        {
+            KeepIfTop(top, topScores, j, rowScores[j]);
         }
 
         top[..near].CopyTo(bounds.Near.AsSpan(i * near, near));
@@ -545,6 +587,94 @@ internal static class GroupAssignment
         return rowScores.Length == 1
             ? Record(ws, i, top[0], topScores[0], top[0], topScores[0])
             : Record(ws, i, top[0], topScores[0], top[1], topScores[1]);
+    }
+
+    /// <summary>True when c is in the near list (a plain loop: the generic Contains would run unoptimised at first).</summary>
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    private static bool IsNear(ReadOnlySpan<int> near, int c)
+    {
+        foreach (int entry in near)
+        {
+            if (entry == c)
+            {
+                return true;
+            }
+        }
+
+        return false;
+    }
+
+    /// <summary>
+    /// The descending top entries of rowScores (top.Length ≤ 8 of them, ties to the lower index) as <see cref="KeepIfTop"/>
+    /// over every score in order would leave them, without its branches: the list lives in the lanes of one vector and an
+    /// insertion is two compares and selects against the list and the list shifted by one lane. Scores are first skipped
+    /// 16 at a time when none beats the last entry (which only rises).
+    /// </summary>
+    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
+    internal static void TopByLanes(ReadOnlySpan<float> rowScores, Span<int> top, Span<float> topScores)
+    {
+        int last = top.Length - 1;
+        Vector256<float> kept = Vector256.Create(float.NegativeInfinity);
+        Vector256<int> keptIndex = Vector256.Create(-1);
+        Vector256<int> down = Vector256.Create(0, 0, 1, 2, 3, 4, 5, 6);
+        Vector256<int> firstLane = Vector256.Create(-1, 0, 0, 0, 0, 0, 0, 0);
+        Vector256<float> above = Vector256.Create(float.PositiveInfinity);
+        float threshold = float.NegativeInfinity;
+        ref float first = ref MemoryMarshal.GetReference(rowScores);
+        int j = 0;
+        for (; j < rowScores.Length; j += Vector512<float>.Count)
+        {
+            ulong candidates = j + Vector512<float>.Count <= rowScores.Length
+                ? Vector512.GreaterThan(Vector512.LoadUnsafe(ref first, (nuint)j), Vector512.Create(threshold)).ExtractMostSignificantBits()
+                : (1UL << (rowScores.Length - j)) - 1;
+            for (; candidates != 0; candidates &= candidates - 1)
+            {
+                int c = j + BitOperations.TrailingZeroCount(candidates);
+                float score = rowScores[c];
+                if (!(score > threshold))
+                {
+                    continue;
+                }
+
+                // Lane s takes lane s − 1 when the score beats that one (the entries slide down), else the score
+                // when it beats lane s, else keeps its entry.
+                Vector256<float> scoreLanes = Vector256.Create(score);
+                Vector256<float> shifted = Vector256.ConditionalSelect(firstLane.AsSingle(), above, Vector256.Shuffle(kept, down));
+                Vector256<int> shiftedIndex = Vector256.Shuffle(keptIndex, down);
+                Vector256<float> slides = Vector256.GreaterThan(scoreLanes, shifted);
+                Vector256<float> lands = Vector256.GreaterThan(scoreLanes, kept);
+                kept = Vector256.ConditionalSelect(slides, shifted, Vector256.ConditionalSelect(lands, scoreLanes, kept));
+                keptIndex = Vector256.ConditionalSelect(slides.AsInt32(), shiftedIndex, Vector256.ConditionalSelect(lands.AsInt32(), Vector256.Create(c), keptIndex));
+                threshold = kept.GetElement(last);
+            }
+        }
+
+        for (int slot = 0; slot <= last; slot++)
+        {
+            topScores[slot] = kept.GetElement(slot);
+            top[slot] = keptIndex.GetElement(slot);
+        }
+    }
+
+    /// <summary>Inserts centroid c into the descending list top/topScores when it beats the last entry (ties keep the earlier index).</summary>
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    internal static void KeepIfTop(Span<int> top, Span<float> topScores, int c, float score)
+    {
+        int slot = topScores.Length - 1;
+        if (!(score > topScores[slot]))
+        {
+            return;
+        }
+
+        while (slot > 0 && score > topScores[slot - 1])
+        {
+            top[slot] = top[slot - 1];
+            topScores[slot] = topScores[slot - 1];
+            slot--;
+        }
+
+        top[slot] = c;
+        topScores[slot] = score;
     }
 
     [MethodImpl(MethodImplOptions.AggressiveOptimization)]
@@ -575,7 +705,26 @@ internal static class GroupAssignment
             int own = ws.Assignments[i];
             int second = own;
             float secondScore = float.NegativeInfinity;
-            for (int j = 0; j < k; j++)
+            int j = 0;
+            if (Vector512.IsHardwareAccelerated)
+            {
+                ref float first = ref MemoryMarshal.GetReference(rowScores);
+                for (; j + Vector512<float>.Count <= k; j += Vector512<float>.Count)
+                {
+                    ulong above = Vector512.GreaterThan(Vector512.LoadUnsafe(ref first, (nuint)j), Vector512.Create(secondScore)).ExtractMostSignificantBits();
+                    for (; above != 0; above &= above - 1)
+                    {
+                        int c = j + BitOperations.TrailingZeroCount(above);
+                        if (c != own && rowScores[c] > secondScore)
+                        {
+                            second = c;
+                            secondScore = rowScores[c];
+                        }
+                    }
+                }
+            }
+
+            for (; j < k; j++)
             {
                 if (j != own && rowScores[j] > secondScore)
                 {

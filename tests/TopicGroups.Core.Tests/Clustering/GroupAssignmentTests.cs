@@ -87,6 +87,42 @@ public sealed class GroupAssignmentTests
         Assert.True(byNearWithoutJumpers > 0 || byJumpers > 0, $"k = {k}: no row settled by the near or jumper tests");
     }
 
+    [Theory]
+    [InlineData(1)]
+    [InlineData(5)]
+    [InlineData(16)]
+    [InlineData(17)]
+    [InlineData(32)]
+    [InlineData(100)]
+    [InlineData(203)]
+    public void TopByLanes_SameListAsOneByOneInsertion_TiesIncluded(int k)
+    {
+        // Scores on a coarse grid (many exact ties) and in ascending runs (every score enters the list).
+        var random = new Random(k);
+        const int tracked = AssignmentBounds.NearCount + 1;
+        for (int trial = 0; trial < 300; trial++)
+        {
+            float[] scores = new float[k];
+            for (int j = 0; j < k; j++)
+            {
+                scores[j] = trial % 3 == 0 ? j * 0.01f : MathF.Round((float)random.NextDouble() * 8) / 8;
+            }
+
+            int[] expected = Enumerable.Repeat(-1, tracked).ToArray();
+            float[] expectedScores = Enumerable.Repeat(float.NegativeInfinity, tracked).ToArray();
+            for (int j = 0; j < k; j++)
+            {
+                GroupAssignment.KeepIfTop(expected, expectedScores, j, scores[j]);
+            }
+
+            int[] actual = new int[tracked];
+            float[] actualScores = new float[tracked];
+            GroupAssignment.TopByLanes(scores, actual, actualScores);
+            Assert.Equal(expected, actual);
+            Assert.Equal(expectedScores, actualScores);
+        }
+    }
+
     [Fact]
     public void AssignAll_LateIterations_ScoreFewerRowsInFull()
     {
