@@ -72,11 +72,12 @@ public sealed record SphericalKMeansOptions
 
     /// <summary>
     /// Fewest groups at which assignment passes use bounds (see GroupAssignment). Measured with
-    /// `bench … -- study` on the peers' data, 20 iterations, one thread: at k = 100 pruning saved 20–26% of the
-    /// iterations' CPU time on the easy data and 7% on the harder; at k = 32 it cost 5–14% (a full pass is
-    /// cheap there and the bounds' own work is not).
+    /// `bench … -- study FILE k 20 7 2 greedy-fromK,greedy-noprune` on the peers' S data (20k × 384), two threads,
+    /// interleaved, twice: median process CPU 0.200–0.221 s pruned against 0.256–0.261 s unpruned at k = 32, and
+    /// 0.145–0.154 s against 0.168–0.183 s at k = 16. (Before the near centroids had bounds of their own and late
+    /// passes skipped the jumper product, pruning cost 5–14% at k = 32 and was used from k = 64.)
     /// </summary>
-    internal const int PruningMinimumGroups = 64;
+    internal const int PruningMinimumGroups = 16;
 
     /// <summary>Seeding sample rows per group (see SeedingPool); for comparisons and benchmarks.</summary>
     internal int SeedingSampleRowsPerGroup { get; init; } = SeedingPool.SampleRowsPerGroup;
