@@ -86,6 +86,12 @@ public sealed class TopicGroupsClient
 
         // One deadline for the whole call: retries share what is left of it.
         DateTime deadline = DateTime.UtcNow + _options.Timeout;
+        int packedDimensions = _options.PackEmbeddings ? PackedEmbeddings.CommonDimensions(documents) : 0;
+        if (packedDimensions > 0)
+        {
+            return await GroupPackedAsync(PackingSource.Of(documents, packedDimensions), options, progress, deadline, cancellationToken);
+        }
+
         int[] sizes = EncodedSizes(documents, out long totalBytes);
         if (progress is null && totalBytes <= _options.StreamingThresholdBytes)
         {
@@ -100,6 +106,42 @@ public sealed class TopicGroupsClient
         chunks[0].RequestId = requestId;   // every attempt re-sends these same chunks, from chunk 0
         return await _retry.ExecuteAsync(
             async token => await StreamAsync(chunks, progress, deadline, token),
+            cancellationToken);
+    }
+
+    /// <summary>
+    /// Groups a batch held as a matrix (ids, texts and row-major float32 embeddings) into options.GroupCount themes,
+    /// as <see cref="GroupDocumentsAsync"/> does, without a message per document: the rows travel as packed
+    /// float32 bytes, copied from <see cref="EmbeddingBatch.Embeddings"/> one chunk at a time.
+    /// </summary>
+    /// <exception cref="RpcException">As <see cref="GroupDocumentsAsync"/>.</exception>
+    public async Task<GroupDocumentsResponse> GroupEmbeddingsAsync(
+        EmbeddingBatch batch,
+        GroupingOptions options,
+        IProgress<GroupingProgress>? progress = null,
+        CancellationToken cancellationToken = default)
+    {
+        ArgumentNullException.ThrowIfNull(batch);
+        ArgumentNullException.ThrowIfNull(options);
+        DateTime deadline = DateTime.UtcNow + _options.Timeout;
+        return await GroupPackedAsync(PackingSource.Of(batch), options, progress, deadline, cancellationToken);
+    }
+
+    /// <summary>The packed form: one message up to StreamingThresholdBytes (without progress), else chunks made as they are sent.</summary>
+    private async Task<GroupDocumentsResponse> GroupPackedAsync(
+        PackingSource source, GroupingOptions options, IProgress<GroupingProgress>? progress, DateTime deadline, CancellationToken cancellationToken)
+    {
+        if (progress is null && PackedEmbeddings.EncodedSize(source) <= _options.StreamingThresholdBytes)
+        {
+            GroupDocumentsRequest request = PackedEmbeddings.Unary(source, options);
+            return await _retry.ExecuteAsync(
+                async token => await _client.GroupDocumentsAsync(request, deadline: deadline, cancellationToken: token),
+                cancellationToken);
+        }
+
+        // Each attempt packs the chunks afresh while it sends them: the batch is never held twice.
+        return await _retry.ExecuteAsync(
+            async token => await StreamAsync(PackedEmbeddings.Chunks(source, options, _options.ChunkSizeBytes), progress, deadline, token),
             cancellationToken);
     }
 
@@ -251,7 +293,7 @@ public sealed class TopicGroupsClient
     }
 
     private async Task<GroupDocumentsResponse> StreamAsync(
-        List<StreamGroupDocumentsRequest> chunks,
+        IEnumerable<StreamGroupDocumentsRequest> chunks,
         IProgress<GroupingProgress>? progress,
         DateTime deadline,
         CancellationToken cancellationToken)

@@ -70,6 +70,15 @@ public sealed class TopicGroupsClientOptions
     /// <value>The default is null: no key is sent.</value>
     public string? ApiKey { get; set; }
 
+    /// <summary>
+    /// Send embeddings packed: each message carries its documents' embeddings as one block of float32 bytes
+    /// (packed_embeddings) instead of a repeated float per document, which both ends encode and decode much faster.
+    /// Batches whose documents lack embeddings or differ in length always go per document, so the server can name
+    /// the odd one. Turn it off only for a server that predates packed_embeddings.
+    /// </summary>
+    /// <value>The default is true.</value>
+    public bool PackEmbeddings { get; set; } = true;
+
     internal TopicGroupsClientOptions Validated()
     {
         if (ApiKey is not null && ApiKeyHeader.Problem(ApiKey) is string problem)
@@ -124,6 +133,7 @@ public sealed class TopicGroupsClientOptions
             ChunkSizeBytes = ChunkSizeBytes,
             MaxResponseBytes = MaxResponseBytes,
             ApiKey = ApiKey,
+            PackEmbeddings = PackEmbeddings,
         };
     }
 }

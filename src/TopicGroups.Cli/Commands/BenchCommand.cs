@@ -256,17 +256,17 @@ internal static class BenchCommand
             var warmOptions = protoOptions.Clone();
             warmOptions.GroupCount = Math.Min(run.GroupCount, warmRows);
             warmOptions.MaxIterations = 2;
-            await client.GroupDocumentsAsync(Documents(matrix, ids, texts, warmRows), warmOptions, progress: null, cancellationToken);
+            var warmBatch = new EmbeddingBatch(ids[..warmRows], texts[..warmRows], matrix.Values.AsMemory(0, warmRows * d), d);
+            await client.GroupEmbeddingsAsync(warmBatch, warmOptions, progress: null, cancellationToken);
             WarmUp(matrix, run, cancellationToken);
             fields["warmup_seconds"] = Round(Stopwatch.GetElapsedTime(warmStart).TotalSeconds);
 
-            // End to end, from the matrix in memory to the answer in hand: building the messages counts too.
+            // End to end, from the matrix in memory to the answer in hand: the client packs the rows into chunks
+            // (packed_embeddings) as it sends them, the server copies each chunk into its matrix, groups, and answers.
             long endToEndStart = Stopwatch.GetTimestamp();
-            List<Proto.Document> documents = Documents(matrix, ids, texts, n);
-            double messagesSeconds = Stopwatch.GetElapsedTime(endToEndStart).TotalSeconds;
-            Proto.GroupDocumentsResponse response = await client.GroupDocumentsAsync(documents, protoOptions, progress: null, cancellationToken);
+            var batch = new EmbeddingBatch(ids, texts, matrix.Values, d);
+            Proto.GroupDocumentsResponse response = await client.GroupEmbeddingsAsync(batch, protoOptions, progress: null, cancellationToken);
             double endToEndSeconds = Stopwatch.GetElapsedTime(endToEndStart).TotalSeconds;
-            documents = [];
 
             long inProcessStart = Stopwatch.GetTimestamp();
             var input = new GroupingInput(ids, texts, matrix, CoreOptions(run));
@@ -289,7 +289,6 @@ internal static class BenchCommand
             fields["fit_objective"] = Math.Round(response.Statistics.Objective, 6);
             fields["end_to_end_seconds"] = Round(endToEndSeconds);
             fields["server_seconds"] = Round(response.Statistics.Seconds);
-            fields["messages_seconds"] = Round(messagesSeconds);
             fields["in_process_seconds"] = Round(inProcessSeconds);
             fields["in_process_iterations"] = result.Statistics.Iterations;
             fields["end_to_end_over_in_process"] = Math.Round(endToEndSeconds / inProcessSeconds, 3);
@@ -370,23 +369,6 @@ internal static class BenchCommand
         RestartCount = run.RestartCount,
         MaxIterations = run.Iterations ?? SphericalKMeansDefaults.MaxIterations,
     };
-
-    /// <summary>The first <paramref name="count"/> rows as messages: the client's input format (a copy per document, by design of the API).</summary>
-    private static List<Proto.Document> Documents(EmbeddingMatrix matrix, string[] ids, string[] texts, int count)
-    {
-        var documents = new List<Proto.Document>(count);
-        float[] row = new float[matrix.Dimensions];
-        for (int i = 0; i < count; i++)
-        {
-            var document = new Proto.Document { Id = ids[i], Text = texts[i] };
-            document.Embedding.Capacity = row.Length;
-            matrix.Row(i).CopyTo(row);
-            document.Embedding.Add(row);   // an array is copied in one block
-            documents.Add(document);
-        }
-
-        return documents;
-    }
 
     private static double Round(double seconds) => Math.Round(seconds, 4);
 

@@ -1,3 +1,4 @@
+using System.Globalization;
 using Google.Protobuf;
 using Google.Protobuf.Collections;
 using Google.Rpc;
@@ -13,20 +14,27 @@ namespace TopicGroups.Server.Validation;
 
 /// <summary>
 /// Turns a request (one message, or the chunks of a stream) into a <see cref="GroupingInput"/>: checks
-/// every document and option, then copies the embeddings once into one row-major float[]. A batch whose
-/// documents all come without embeddings is accepted when the server embeds texts (<see cref="TextEmbedding"/>):
-/// its matrix is then allocated empty and <see cref="TextsToEmbed"/> says what to fill it with.
-/// Bad input throws INVALID_ARGUMENT with up to <see cref="MaxViolations"/> field violations; input over a
-/// configured size limit throws RESOURCE_EXHAUSTED at once, before more of it is held.
+/// every document and option, and copies each embedding once, as it arrives, into the batch's row-major
+/// float[] (<see cref="EmbeddingIntake"/>), so a chunk's message can go as soon as it is read. Embeddings come
+/// per document (Document.embedding) or packed per message (packed_embeddings: float32 little-endian bytes,
+/// copied as one block). A batch whose documents all come without embeddings is accepted when the server embeds
+/// texts (<see cref="TextEmbedding"/>): its matrix is then allocated empty and <see cref="TextsToEmbed"/> says
+/// what to fill it with. Bad input throws INVALID_ARGUMENT with up to <see cref="MaxViolations"/> field
+/// violations; input over a configured size limit throws RESOURCE_EXHAUSTED at once, before more of it is held.
 /// </summary>
 internal sealed class RequestValidator
 {
     /// <summary>Violations collected before the request is rejected; enough to fix a batch in one round.</summary>
     public const int MaxViolations = 20;
 
+    private const string PackedField = "packed_embeddings";
+    private const string PackedDimensionsField = "embedding_dimensions";
+    private const string DocumentCountField = "document_count";
+
     private readonly TopicGroupsLimits _limits;
     private readonly List<BadRequest.Types.FieldViolation> _violations = [];
-    private readonly List<Proto.Document> _documents = [];
+    private readonly List<string> _ids = [];
+    private readonly List<string> _texts = [];
     private readonly Dictionary<string, int> _indexById = new(StringComparer.Ordinal);
     private Proto.GroupingOptions? _options;
     private int _dimensions;                // of the first document with an embedding; 0 until one arrives
@@ -35,6 +43,18 @@ internal sealed class RequestValidator
     private readonly TextEmbedding? _embedding;
     private long _embeddingValues;
     private int _nextChunkIndex;
+    private int _expectedDocuments;         // documents the batch will have when known in advance (unary, document_count); 0 otherwise
+    private bool _expectedFromChunk0;       // _expectedDocuments came from the caller's document_count
+    private EmbeddingIntake? _intake;       // created once the batch's dimension is known
+    private EmbeddingForm _form;            // how the first message with embeddings sent them
+    private int _formSource = -1;           // that message's chunk index (0 for a unary request)
+
+    private enum EmbeddingForm
+    {
+        None,
+        PerDocument,
+        Packed,
+    }
 
     /// <param name="limits">Size limits.</param>
     /// <param name="embedding">The server's text embedding; null (or disabled) refuses documents without embeddings.</param>
@@ -49,7 +69,7 @@ internal sealed class RequestValidator
     public TextsToEmbed? TextsToEmbed { get; private set; }
 
     /// <summary>Documents accepted so far (across chunks).</summary>
-    public int DocumentCount => _documents.Count;
+    public int DocumentCount => _ids.Count;
 
     /// <summary>Checks a unary request and builds the Core input.</summary>
     public static GroupingInput ToInput(Proto.GroupDocumentsRequest request, TopicGroupsLimits limits) =>
@@ -59,8 +79,12 @@ internal sealed class RequestValidator
     public static GroupingInput ToInput(
         Proto.GroupDocumentsRequest request, TopicGroupsLimits limits, TextEmbedding? embedding, out TextsToEmbed? textsToEmbed)
     {
-        var validator = new RequestValidator(limits, embedding) { _options = request.Options };
-        validator.AddDocuments(request.Documents, chunkIndex: null);
+        var validator = new RequestValidator(limits, embedding)
+        {
+            _options = request.Options,
+            _expectedDocuments = request.Documents.Count,
+        };
+        validator.AddDocuments(request.Documents, request.PackedEmbeddings, request.EmbeddingDimensions, chunkIndex: null);
         GroupingInput input = validator.ToInput();
         textsToEmbed = validator.TextsToEmbed;
         return input;
@@ -80,25 +104,44 @@ internal sealed class RequestValidator
         if (_nextChunkIndex == 0)
         {
             _options = chunk.Options;
+            CheckDeclaredCount(chunk.DocumentCount);
         }
-        else if (chunk.Options is not null)
+        else
         {
-            AddViolation(
-                "options",
-                $"is set on chunk {chunk.ChunkIndex}; send the options with chunk 0 only and leave them unset on later chunks.");
+            if (chunk.Options is not null)
+            {
+                AddViolation(
+                    "options",
+                    $"is set on chunk {chunk.ChunkIndex}; send the options with chunk 0 only and leave them unset on later chunks.");
+            }
+
+            if (chunk.DocumentCount != 0)
+            {
+                AddViolation(
+                    DocumentCountField,
+                    $"is set on chunk {chunk.ChunkIndex}; send the batch's document count with chunk 0 only and leave it 0 on later chunks.");
+            }
         }
 
         _nextChunkIndex++;
-        AddDocuments(chunk.Documents, chunk.ChunkIndex);
+        AddDocuments(chunk.Documents, chunk.PackedEmbeddings, chunk.EmbeddingDimensions, chunk.ChunkIndex);
     }
 
-    /// <summary>Finishes the checks that need the whole batch, then copies the embeddings once.</summary>
+    /// <summary>Finishes the checks that need the whole batch, then hands over the matrix the embeddings were copied into.</summary>
     public GroupingInput ToInput()
     {
-        int n = _documents.Count;
+        int n = _ids.Count;
         if (n == 0)
         {
             AddViolation("documents", "is empty; send at least one document (an id, a text and an embedding).");
+        }
+
+        if (_expectedFromChunk0 && n != _expectedDocuments)
+        {
+            AddViolation(
+                DocumentCountField,
+                $"is {_expectedDocuments} (chunk 0) but the stream brought {n} documents; set it to the number of documents of the "
+                + "whole batch, or leave it 0.");
         }
 
         CheckOptions(n);
@@ -108,20 +151,17 @@ internal sealed class RequestValidator
             return TextsOnlyInput(n);
         }
 
-        int d = _dimensions;
-        float[] values = new float[checked(n * d)];
-        string[] ids = new string[n];
-        string[] texts = new string[n];
-        for (int i = 0; i < n; i++)
+        if (_intake is null || _intake.Rows != n)
         {
-            Proto.Document document = _documents[i];
-            UnsafeCollectionOperations.AsSpan(document.Embedding).CopyTo(values.AsSpan(i * d, d));
-            ids[i] = document.Id;
-            texts[i] = document.Text;
+            throw new InvalidOperationException($"{n} documents were accepted but {_intake?.Rows ?? 0} embeddings were taken in.");
         }
 
-        _documents.Clear(); // the proto copies of the embeddings can go now
-        var embeddings = new EmbeddingMatrix(values, n, d);
+        string[] ids = [.. _ids];
+        string[] texts = [.. _texts];
+        _ids.Clear();
+        _texts.Clear();
+        EmbeddingMatrix embeddings = _intake.ToMatrix();
+        _intake = null;
 
         // The Core decides what it can normalise; its check is the last word should its rules grow.
         if (RowNormalisation.FindInvalidRow(embeddings, out string? reason) is int row)
@@ -146,23 +186,39 @@ internal sealed class RequestValidator
                 + "embedding values this server holds for one batch (TopicGroups:Limits:MaxEmbeddingValues). Split the batch into smaller ones.");
         }
 
-        string[] ids = new string[n];
-        string[] texts = new string[n];
-        for (int i = 0; i < n; i++)
-        {
-            ids[i] = _documents[i].Id;
-            texts[i] = _documents[i].Text;
-        }
-
-        _documents.Clear();
+        string[] ids = [.. _ids];
+        string[] texts = [.. _texts];
+        _ids.Clear();
+        _texts.Clear();
         var embeddings = EmbeddingMatrix.Allocate(n, d);
         TextsToEmbed = new TextsToEmbed(texts, embeddings, _embedding!);
         return new GroupingInput(ids, texts, embeddings, OptionsMapper.ToCore(_options!));
     }
 
-    private void AddDocuments(RepeatedField<Proto.Document> documents, int? chunkIndex)
+    /// <summary>Chunk 0's document_count: lets the intake allocate the whole matrix once.</summary>
+    private void CheckDeclaredCount(int declared)
     {
-        if ((long)_documents.Count + documents.Count > _limits.MaxDocuments)
+        if (declared < 0)
+        {
+            AddViolation(DocumentCountField, $"is {declared}; give the number of documents in the whole batch, or 0 when it is not known.");
+        }
+        else if (declared > _limits.MaxDocuments)
+        {
+            throw StatusErrors.ResourceExhausted(
+                DocumentCountField,
+                $"is {declared}, more than the {_limits.MaxDocuments} documents this server groups in one batch "
+                + "(TopicGroups:Limits:MaxDocuments); split the batch into smaller ones.");
+        }
+        else if (declared > 0)
+        {
+            _expectedDocuments = declared;
+            _expectedFromChunk0 = true;
+        }
+    }
+
+    private void AddDocuments(RepeatedField<Proto.Document> documents, ByteString packed, int packedDimensions, int? chunkIndex)
+    {
+        if ((long)_ids.Count + documents.Count > _limits.MaxDocuments)
         {
             throw StatusErrors.ResourceExhausted(
                 "documents",
@@ -170,10 +226,34 @@ internal sealed class RequestValidator
                 + "(TopicGroups:Limits:MaxDocuments); split the batch into smaller ones.");
         }
 
+        if (_expectedFromChunk0 && _ids.Count + documents.Count > _expectedDocuments)
+        {
+            throw StatusErrors.InvalidArgument(
+                DocumentCountField,
+                $"is {_expectedDocuments} (chunk 0) but chunk {chunkIndex} brings the batch to {_ids.Count + documents.Count} documents; "
+                + "set it to the number of documents of the whole batch, or leave it 0.");
+        }
+
+        if (packed.Length > 0 || packedDimensions != 0)
+        {
+            AddPackedDocuments(documents, packed, packedDimensions, chunkIndex);
+            return;
+        }
+
+        if (_form == EmbeddingForm.Packed && documents.Count > 0)
+        {
+            AddViolation(
+                PackedField,
+                $"is empty on chunk {chunkIndex} but chunk {_formSource} sent packed embeddings; a batch sends its embeddings one way: "
+                + "packed_embeddings (with embedding_dimensions) on every chunk that has documents, or Document.embedding on every document.");
+            ThrowIfInvalid();
+        }
+
         foreach (Proto.Document document in documents)
         {
-            int index = _documents.Count;
-            _documents.Add(document);
+            int index = _ids.Count;
+            _ids.Add(document.Id);
+            _texts.Add(document.Text);
             CheckId(document.Id, index);
             CheckText(document.Text, index);
             CheckEmbedding(document.Embedding, index, chunkIndex, document.Text);
@@ -184,24 +264,162 @@ internal sealed class RequestValidator
         }
     }
 
+    /// <summary>
+    /// One message's embeddings as float32 little-endian bytes: checks the form, the dimension and the byte length,
+    /// copies them in one block, then checks every row (vectorised; exact messages only for bad rows).
+    /// </summary>
+    private void AddPackedDocuments(RepeatedField<Proto.Document> documents, ByteString packed, int dimensions, int? chunkIndex)
+    {
+        int first = _ids.Count;
+        string where = chunkIndex is int chunk ? $" on chunk {chunk}" : string.Empty;
+        foreach (Proto.Document document in documents)
+        {
+            int index = _ids.Count;
+            _ids.Add(document.Id);
+            _texts.Add(document.Text);
+            CheckId(document.Id, index);
+            CheckText(document.Text, index);
+            if (document.Embedding.Count > 0)
+            {
+                AddViolation(
+                    PackedField,
+                    $"is set{where} but documents[{index}].embedding also has {document.Embedding.Count} values; send each embedding "
+                    + "one way: in packed_embeddings (leaving Document.embedding empty), or in Document.embedding without packed_embeddings.");
+                break;
+            }
+        }
+
+        if (_ids.Count < first + documents.Count)
+        {
+            ThrowIfInvalid();   // stopped at a mixed document: nothing more to learn from this message
+        }
+
+        if (_form == EmbeddingForm.PerDocument || _textsOnlySource >= 0)
+        {
+            string earlier = _textsOnlySource >= 0
+                ? $"documents[{_textsOnlySource}] came without an embedding (for the server to embed its text)"
+                : $"documents[{_dimensionsSource}].embedding came in Document.embedding";
+            AddViolation(
+                PackedField,
+                $"is set{where} but {earlier}; a batch sends its embeddings one way: packed_embeddings on every chunk, or "
+                + "Document.embedding on every document.");
+            ThrowIfInvalid();
+        }
+
+        if (dimensions <= 0)
+        {
+            string hint = documents.Count > 0 && packed.Length % (sizeof(float) * documents.Count) == 0
+                ? $" ({packed.Length} bytes for {documents.Count} documents would be {packed.Length / sizeof(float) / documents.Count})"
+                : string.Empty;
+            AddViolation(
+                PackedDimensionsField,
+                $"is {dimensions}{where} but packed_embeddings has {packed.Length} bytes; set it to the number of values in each "
+                + $"document's embedding{hint}.");
+            ThrowIfInvalid();
+        }
+
+        if (dimensions > _limits.MaxDimensions)
+        {
+            throw StatusErrors.ResourceExhausted(
+                PackedDimensionsField,
+                $"is {dimensions}; this server accepts embeddings of at most {_limits.MaxDimensions} dimensions "
+                + "(TopicGroups:Limits:MaxDimensions). Use an embedding model with fewer dimensions.");
+        }
+
+        if (_dimensions != 0 && dimensions != _dimensions)
+        {
+            AddViolation(
+                PackedDimensionsField,
+                $"is {dimensions}{where} but documents[{_dimensionsSource}].embedding has {_dimensions} values; every embedding of a "
+                + "batch must come from the same model and have the same number of values.");
+            ThrowIfInvalid();
+        }
+
+        long expectedBytes = (long)documents.Count * dimensions * sizeof(float);
+        if (packed.Length != expectedBytes)
+        {
+            AddViolation(
+                PackedField,
+                $"has {packed.Length} bytes{where}; {documents.Count} documents × {dimensions} values (embedding_dimensions) × 4 bytes = "
+                + $"{expectedBytes} bytes expected: every document's embedding as float32 little-endian, row-major in the order of documents.");
+            ThrowIfInvalid();
+        }
+
+        if (documents.Count == 0)
+        {
+            return;
+        }
+
+        if (_dimensions == 0)
+        {
+            _dimensions = dimensions;
+            _dimensionsSource = first;
+        }
+
+        if (_form == EmbeddingForm.None)
+        {
+            _form = EmbeddingForm.Packed;
+            _formSource = chunkIndex ?? 0;
+        }
+
+        _embeddingValues += (long)documents.Count * dimensions;
+        if (_embeddingValues > _limits.MaxEmbeddingValues)
+        {
+            string reached = chunkIndex is int c ? $" (reached in chunk {c})" : string.Empty;
+            throw StatusErrors.ResourceExhausted(
+                "documents",
+                $"hold more than {_limits.MaxEmbeddingValues} embedding values in total by documents[{_ids.Count - 1}]{reached}, "
+                + $"{_limits.MaxEmbeddingValues * sizeof(float) / (1024 * 1024)} MiB as float32: the most this server holds "
+                + "for one batch (TopicGroups:Limits:MaxEmbeddingValues). Split the batch into smaller ones.");
+        }
+
+        Span<float> rows = Intake().TakePacked(packed.Span);
+        bool allFinite = EmbeddingIntake.AllFinite(rows);
+        for (int r = 0; r < documents.Count; r++)
+        {
+            Span<float> row = rows.Slice(r * dimensions, dimensions);
+            if (!allFinite || EmbeddingIntake.AllZero(row))
+            {
+                CheckValues(row, first + r);
+                if (_violations.Count >= MaxViolations)
+                {
+                    ThrowIfInvalid();
+                }
+            }
+        }
+    }
+
+    /// <summary>The intake, created at the first embedding (the dimension is known then).</summary>
+    private EmbeddingIntake Intake()
+    {
+        if (_intake is null)
+        {
+            // Reserve the whole matrix only when the batch is known to fit; otherwise the running total hits the limit
+            // and names the document that crossed it, as without a reservation.
+            int expected = (long)_expectedDocuments * _dimensions <= _limits.MaxEmbeddingValues ? _expectedDocuments : 0;
+            _intake = new EmbeddingIntake(_dimensions, expected);
+        }
+
+        return _intake;
+    }
+
     private void CheckId(string id, int index)
     {
-        string field = $"documents[{index}].id";
         if (id.Length == 0)
         {
-            AddViolation(field, "is empty; give every document an id of 1-256 characters, unique within the batch.");
+            AddViolation(FieldOf(index, "id"), "is empty; give every document an id of 1-256 characters, unique within the batch.");
         }
         else if (id.Length > TopicGroupsLimitsDefaults.MaxIdLength)
         {
             AddViolation(
-                field,
+                FieldOf(index, "id"),
                 $"has {id.Length} characters; an id may have at most {TopicGroupsLimitsDefaults.MaxIdLength}. "
                 + "Use a shorter key and keep long names in the text.");
         }
         else if (!_indexById.TryAdd(id, index))
         {
             AddViolation(
-                field,
+                FieldOf(index, "id"),
                 $"\"{id}\" is also the id of documents[{_indexById[id]}]; ids must be unique within a batch.");
         }
     }
@@ -211,7 +429,7 @@ internal sealed class RequestValidator
         if (text.Length > _limits.MaxTextLength)
         {
             throw StatusErrors.ResourceExhausted(
-                $"documents[{index}].text",
+                FieldOf(index, "text"),
                 $"has {text.Length} characters; this server accepts texts of at most {_limits.MaxTextLength} "
                 + "(TopicGroups:Limits:MaxTextLength). Send the part the embedding was made from.");
         }
@@ -219,7 +437,6 @@ internal sealed class RequestValidator
 
     private void CheckEmbedding(RepeatedField<float> embedding, int index, int? chunkIndex, string text)
     {
-        string field = $"documents[{index}].embedding";
         int count = embedding.Count;
         if (count == 0)
         {
@@ -230,7 +447,7 @@ internal sealed class RequestValidator
         if (_textsOnlySource >= 0)
         {
             AddViolation(
-                field,
+                FieldOf(index, "embedding"),
                 $"has {count} values but documents[{_textsOnlySource}].embedding is empty; a batch is embedded by the caller or by "
                 + $"the server, not both. Send an embedding with every document, or leave them out of every document and the server "
                 + $"embeds the texts ({MiniLmEmbedder.ModelName}).");
@@ -240,7 +457,7 @@ internal sealed class RequestValidator
         if (count > _limits.MaxDimensions)
         {
             throw StatusErrors.ResourceExhausted(
-                field,
+                FieldOf(index, "embedding"),
                 $"has {count} values; this server accepts embeddings of at most {_limits.MaxDimensions} dimensions "
                 + "(TopicGroups:Limits:MaxDimensions). Use an embedding model with fewer dimensions.");
         }
@@ -253,10 +470,16 @@ internal sealed class RequestValidator
         else if (count != _dimensions)
         {
             AddViolation(
-                field,
+                FieldOf(index, "embedding"),
                 $"has {count} values but documents[{_dimensionsSource}].embedding has {_dimensions}; every embedding "
                 + "of a batch must come from the same model and have the same number of values.");
             return;
+        }
+
+        if (_form == EmbeddingForm.None)
+        {
+            _form = EmbeddingForm.PerDocument;
+            _formSource = chunkIndex ?? 0;
         }
 
         _embeddingValues += count;
@@ -270,17 +493,21 @@ internal sealed class RequestValidator
                 + "for one batch (TopicGroups:Limits:MaxEmbeddingValues). Split the batch into smaller ones.");
         }
 
-        CheckValues(UnsafeCollectionOperations.AsSpan(embedding), field);
+        Span<float> row = Intake().Take(1);
+        UnsafeCollectionOperations.AsSpan(embedding).CopyTo(row);
+        if (!EmbeddingIntake.AllFinite(row) || EmbeddingIntake.AllZero(row))
+        {
+            CheckValues(row, index);
+        }
     }
 
     /// <summary>A document without an embedding: fine when the whole batch is texts-only and the server embeds texts.</summary>
     private void CheckTextOnly(int index, string text)
     {
-        string field = $"documents[{index}].embedding";
         if (_dimensions > 0)
         {
             AddViolation(
-                field,
+                FieldOf(index, "embedding"),
                 $"is empty but documents[{_dimensionsSource}].embedding has {_dimensions} values; a batch is embedded by the caller or "
                 + "by the server, not both. Send the embedding the text was made from, or leave the embeddings out of every document "
                 + "and the server embeds the texts.");
@@ -305,12 +532,13 @@ internal sealed class RequestValidator
         if (string.IsNullOrWhiteSpace(text))
         {
             AddViolation(
-                $"documents[{index}].text",
+                FieldOf(index, "text"),
                 "is empty, and with no embedding the server embeds the text: send the document's text, or leave the document out.");
         }
     }
 
-    private void CheckValues(ReadOnlySpan<float> values, string field)
+    /// <summary>The exact check behind a row the vectorised test did not vouch for: names the first bad value and its position.</summary>
+    private void CheckValues(ReadOnlySpan<float> values, int index)
     {
         bool anyNonZero = false;
         for (int j = 0; j < values.Length; j++)
@@ -320,7 +548,7 @@ internal sealed class RequestValidator
             {
                 string name = float.IsNaN(value) ? "NaN" : value > 0 ? "+Infinity" : "-Infinity";
                 AddViolation(
-                    field,
+                    FieldOf(index, "embedding"),
                     $"has {name} at position {j}; every value must be a finite number (check the embedding model's output).");
                 return;
             }
@@ -331,10 +559,14 @@ internal sealed class RequestValidator
         if (!anyNonZero)
         {
             AddViolation(
-                field,
+                FieldOf(index, "embedding"),
                 "is all zeros, so it has no direction to compare; send the document's real embedding or leave the document out.");
         }
     }
+
+    /// <summary>"documents[i].part", built only when a violation needs it.</summary>
+    private static string FieldOf(int index, string part) =>
+        string.Create(CultureInfo.InvariantCulture, $"documents[{index}].{part}");
 
     private void CheckOptions(int documentCount)
     {
