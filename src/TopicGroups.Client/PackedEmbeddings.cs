@@ -158,9 +158,10 @@ internal static class PackedEmbeddings
     /// <summary>
     /// Chunks of about <paramref name="chunkSizeBytes"/>, made one at a time as the caller asks for them. Their
     /// packed bytes live in one pooled buffer that the next chunk reuses, so the caller must have written (serialised)
-    /// a chunk before asking for the next, as a stream does. Chunk 0 carries the options and the batch's document count.
+    /// a chunk before asking for the next, as a stream does. Chunk 0 carries the options, the request id and the batch's
+    /// document count.
     /// </summary>
-    public static IEnumerable<StreamGroupDocumentsRequest> Chunks(PackingSource source, GroupingOptions options, int chunkSizeBytes)
+    public static IEnumerable<StreamGroupDocumentsRequest> Chunks(PackingSource source, string requestId, GroupingOptions options, int chunkSizeBytes)
     {
         int rowBytes = source.Dimensions * sizeof(float);
         byte[]? buffer = null;
@@ -170,7 +171,7 @@ internal static class PackedEmbeddings
             int chunkIndex = 0;
             do
             {
-                long bytes = ChunkFieldsBytes + (chunkIndex == 0 ? options.CalculateSize() + FieldOverheadBytes : 0);
+                long bytes = ChunkFieldsBytes + (chunkIndex == 0 ? options.CalculateSize() + FieldOverheadBytes + requestId.Length + FieldOverheadBytes : 0);
                 int end = start;
                 while (end < source.Count)
                 {
@@ -206,6 +207,7 @@ internal static class PackedEmbeddings
                 if (chunkIndex == 0)
                 {
                     chunk.Options = options;
+                    chunk.RequestId = requestId;
                     chunk.DocumentCount = source.Count;
                 }
 

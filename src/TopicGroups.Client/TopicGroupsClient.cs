@@ -89,7 +89,7 @@ public sealed class TopicGroupsClient
         int packedDimensions = _options.PackEmbeddings ? PackedEmbeddings.CommonDimensions(documents) : 0;
         if (packedDimensions > 0)
         {
-            return await GroupPackedAsync(PackingSource.Of(documents, packedDimensions), options, progress, deadline, cancellationToken);
+            return await GroupPackedAsync(PackingSource.Of(documents, packedDimensions), requestId, options, progress, deadline, cancellationToken);
         }
 
         int[] sizes = EncodedSizes(documents, out long totalBytes);
@@ -111,10 +111,12 @@ public sealed class TopicGroupsClient
 
     /// <summary>
     /// Groups a batch held as a matrix (ids, texts and row-major float32 embeddings) into options.GroupCount themes,
-    /// as <see cref="GroupDocumentsAsync"/> does, without a message per document: the rows travel as packed
-    /// float32 bytes, copied from <see cref="EmbeddingBatch.Embeddings"/> one chunk at a time.
+    /// as <see cref="GroupDocumentsAsync(IReadOnlyList{Document}, GroupingOptions, IProgress{GroupingProgress}?, CancellationToken)"/>
+    /// does (with a fresh request id when <see cref="TopicGroupsClientOptions.AutomaticRequestIds"/>), without a message
+    /// per document: the rows travel as packed float32 bytes, copied from <see cref="EmbeddingBatch.Embeddings"/> one
+    /// chunk at a time.
     /// </summary>
-    /// <exception cref="RpcException">As <see cref="GroupDocumentsAsync"/>.</exception>
+    /// <exception cref="RpcException">As <see cref="GroupDocumentsAsync(IReadOnlyList{Document}, GroupingOptions, IProgress{GroupingProgress}?, CancellationToken)"/>.</exception>
     public async Task<GroupDocumentsResponse> GroupEmbeddingsAsync(
         EmbeddingBatch batch,
         GroupingOptions options,
@@ -124,16 +126,23 @@ public sealed class TopicGroupsClient
         ArgumentNullException.ThrowIfNull(batch);
         ArgumentNullException.ThrowIfNull(options);
         DateTime deadline = DateTime.UtcNow + _options.Timeout;
-        return await GroupPackedAsync(PackingSource.Of(batch), options, progress, deadline, cancellationToken);
+        string requestId = _options.AutomaticRequestIds ? Guid.NewGuid().ToString() : string.Empty;
+        return await GroupPackedAsync(PackingSource.Of(batch), requestId, options, progress, deadline, cancellationToken);
     }
 
     /// <summary>The packed form: one message up to StreamingThresholdBytes (without progress), else chunks made as they are sent.</summary>
     private async Task<GroupDocumentsResponse> GroupPackedAsync(
-        PackingSource source, GroupingOptions options, IProgress<GroupingProgress>? progress, DateTime deadline, CancellationToken cancellationToken)
+        PackingSource source,
+        string requestId,
+        GroupingOptions options,
+        IProgress<GroupingProgress>? progress,
+        DateTime deadline,
+        CancellationToken cancellationToken)
     {
         if (progress is null && PackedEmbeddings.EncodedSize(source) <= _options.StreamingThresholdBytes)
         {
             GroupDocumentsRequest request = PackedEmbeddings.Unary(source, options);
+            request.RequestId = requestId;
             return await _retry.ExecuteAsync(
                 async token => await _client.GroupDocumentsAsync(request, deadline: deadline, cancellationToken: token),
                 cancellationToken);
@@ -141,7 +150,7 @@ public sealed class TopicGroupsClient
 
         // Each attempt packs the chunks afresh while it sends them: the batch is never held twice.
         return await _retry.ExecuteAsync(
-            async token => await StreamAsync(PackedEmbeddings.Chunks(source, options, _options.ChunkSizeBytes), progress, deadline, token),
+            async token => await StreamAsync(PackedEmbeddings.Chunks(source, requestId, options, _options.ChunkSizeBytes), progress, deadline, token),
             cancellationToken);
     }
 
