@@ -5,6 +5,7 @@ using Grpc.Health.V1;
 using TopicGroups.Protos.V1;
 using TopicGroups.Server.Tests.Security;
 using Xunit;
+using Xunit.Abstractions;
 
 namespace TopicGroups.Server.Tests.Validation;
 
@@ -13,7 +14,7 @@ namespace TopicGroups.Server.Tests.Validation;
 /// bytes through the real gRPC path to every kind of method: each is INVALID_ARGUMENT naming the field, saves nothing,
 /// and leaves the server serving. docs/bad-input.md, rows 48-48e, 57a and 57b.
 /// </summary>
-public sealed class RequestParseTests(CatalogueHost host) : IClassFixture<CatalogueHost>
+public sealed class RequestParseTests(CatalogueHost host, ITestOutputHelper output) : IClassFixture<CatalogueHost>
 {
     // Marks the strings the test breaks: each "QQQQ" in the serialised message gets 0xFF 0xFE as its first two bytes,
     // bytes that can never occur in UTF-8.
@@ -248,6 +249,95 @@ public sealed class RequestParseTests(CatalogueHost host) : IClassFixture<Catalo
             () => UnaryAsync(withKey, "GroupDocuments", GroupDocumentsResponse.Parser, request));
 
         RpcAssert.Single(error, "documents[1].text");
+    }
+
+    [Fact]
+    public async Task MutatedBytes_SeededRandom_ProperStatusAlwaysAndStillServing()
+    {
+        // Byte-level damage to valid requests, unary and streamed: flipped bytes, truncation, bytes that are not UTF-8
+        // in a text. Each answer is OK or a canonical code with a message, never UNKNOWN or INTERNAL.
+        const int Seed = 20261202;
+        const int Calls = 200;
+        var random = new Random(Seed);
+        StatusCode[] allowed =
+        [
+            StatusCode.OK, StatusCode.InvalidArgument, StatusCode.ResourceExhausted, StatusCode.FailedPrecondition,
+            StatusCode.NotFound, StatusCode.AlreadyExists,
+        ];
+        var seen = new Dictionary<StatusCode, int>();
+        CallInvoker invoker = host.Channel.CreateCallInvoker();
+        for (int call = 0; call < Calls; call++)
+        {
+            var (documents, _) = TestBatches.WellSeparated(groupCount: 2, perTheme: 4, dimensions: 8, seed: call);
+            documents[random.Next(documents.Count)].Text = "words " + Marker + " more words";
+            var options = new GroupingOptions { GroupCount = 2, Seed = 1 };
+            bool streamed = random.Next(2) == 0;
+            byte[][] messages;
+            if (streamed)
+            {
+                var first = new StreamGroupDocumentsRequest { ChunkIndex = 0, Options = options };
+                first.Documents.AddRange(documents.Take(4));
+                var second = new StreamGroupDocumentsRequest { ChunkIndex = 1 };
+                second.Documents.AddRange(documents.Skip(4));
+                messages = [first.ToByteArray(), second.ToByteArray()];
+            }
+            else
+            {
+                messages = [Request(documents, options).ToByteArray()];
+            }
+
+            int which = random.Next(messages.Length);
+            byte[] damaged = messages[which];
+            int damage = random.Next(3);
+            int at = random.Next(damaged.Length);
+            if (damage == 0)
+            {
+                damaged[at] = (byte)random.Next(256);
+            }
+            else if (damage == 1)
+            {
+                Array.Resize(ref damaged, at);
+                messages[which] = damaged;
+            }
+            else
+            {
+                int marker = damaged.AsSpan().IndexOf("QQQQ"u8);
+                if (marker >= 0)
+                {
+                    damaged[marker + random.Next(4)] = (byte)(0x80 + random.Next(128));   // a continuation or lead byte out of place
+                }
+            }
+
+            StatusCode code;
+            string detail = string.Empty;
+            try
+            {
+                if (streamed)
+                {
+                    await DuplexAsync(invoker, "StreamGroupDocuments", StreamGroupDocumentsResponse.Parser, messages);
+                }
+                else
+                {
+                    await UnaryAsync(invoker, "GroupDocuments", GroupDocumentsResponse.Parser, messages[0]);
+                }
+
+                code = StatusCode.OK;
+            }
+            catch (RpcException exception)
+            {
+                code = exception.StatusCode;
+                detail = exception.Status.Detail;
+            }
+
+            seen[code] = seen.GetValueOrDefault(code) + 1;
+            Assert.True(allowed.Contains(code), $"seed {Seed}, call {call} ({(streamed ? "streamed" : "unary")}, damage {damage} at {at}): {code} {detail}");
+            Assert.True(code == StatusCode.OK || !string.IsNullOrWhiteSpace(detail), $"seed {Seed}, call {call}: {code} without a message");
+        }
+
+        output.WriteLine($"seed {Seed}: " + string.Join(", ", seen.OrderBy(pair => pair.Key).Select(pair => $"{pair.Key}: {pair.Value}")));
+        Assert.True(seen.GetValueOrDefault(StatusCode.InvalidArgument) > Calls / 4, string.Join(", ", seen));
+        HealthCheckResponse health = await new Health.HealthClient(host.Channel).CheckAsync(new HealthCheckRequest());
+        Assert.Equal(HealthCheckResponse.Types.ServingStatus.Serving, health.Status);
     }
 
     private sealed class KeyedHost(IReadOnlyDictionary<string, string?> settings) : TestHost(settings);
