@@ -124,16 +124,32 @@ public abstract class SqlGroupingStore : IGroupingStore
         }
 
         // The request that made it (null clears a replaced grouping's), in the same transaction as the grouping.
-        await ExecuteAsync(
-            connection,
-            transaction,
-            "UPDATE topicgroups_groupings SET request_id = @request, request_hash = @hash WHERE tenant = @tenant AND name = @name",
-            cancellationToken,
-            ("request", (object?)grouping.Request?.RequestId ?? DBNull.Value),
-            ("hash", (object?)grouping.Request?.ContentHash ?? DBNull.Value),
-            ("tenant", tenant),
-            ("name", grouping.Id));
-        await transaction.CommitAsync(cancellationToken);
+        try
+        {
+            await ExecuteAsync(
+                connection,
+                transaction,
+                "UPDATE topicgroups_groupings SET request_id = @request, request_hash = @hash WHERE tenant = @tenant AND name = @name",
+                cancellationToken,
+                ("request", (object?)grouping.Request?.RequestId ?? DBNull.Value),
+                ("hash", (object?)grouping.Request?.ContentHash ?? DBNull.Value),
+                ("tenant", tenant),
+                ("name", grouping.Id));
+            await transaction.CommitAsync(cancellationToken);
+        }
+        catch (DbException) when (grouping.Request is not null)
+        {
+            // PostgreSQL: a concurrent save of the same request committed first and the unique index refused this
+            // one (the check above cannot see uncommitted rows). Name the winner; anything else is a real failure.
+            await transaction.RollbackAsync(CancellationToken.None);
+            SavedRequestRecord? earlier = await FindByRequestAsync(tenant, grouping.Request.RequestId, cancellationToken);
+            if (earlier is null)
+            {
+                throw;
+            }
+
+            throw new RequestAlreadySavedException(earlier.GroupingId);
+        }
     }
 
     public async Task<SavedRequestRecord?> FindByRequestAsync(string tenant, string requestId, CancellationToken cancellationToken)

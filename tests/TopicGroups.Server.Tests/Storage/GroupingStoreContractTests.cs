@@ -123,6 +123,30 @@ public abstract class GroupingStoreContractTests(ITestOutputHelper output) : IDi
     }
 
     [SkippableFact]
+    public async Task Save_SameRequestFromSixSavesAtOnce_OneGroupingSavedAndTheOthersToldWhich()
+    {
+        IGroupingStore store = OpenStore();
+        var request = new SavedRequest("raced-1", "cd34");
+        await store.ExistsAsync(Tenant, "warm-up", CancellationToken.None);   // schema created before the race
+        var outcomes = await Task.WhenAll(Enumerable.Range(0, 6).Select(async i =>
+        {
+            try
+            {
+                await store.SaveAsync(Tenant, Sample($"raced-{i}", seed: i) with { Request = request }, replace: false, CancellationToken.None);
+                return (Saved: $"raced-{i}", ToldOf: (string?)null);
+            }
+            catch (RequestAlreadySavedException earlier)
+            {
+                return (Saved: (string?)null, ToldOf: earlier.Id);
+            }
+        }));
+
+        string winner = Assert.Single(outcomes, o => o.Saved is not null).Saved!;
+        Assert.All(outcomes.Where(o => o.Saved is null), o => Assert.Equal(winner, o.ToldOf));
+        Assert.Equal([winner], (await store.ListAsync(Tenant, 50, null, CancellationToken.None)).Groupings.Select(g => g.Id));
+    }
+
+    [SkippableFact]
     public async Task Get_UnknownName_Null()
     {
         IGroupingStore store = OpenStore();
