@@ -86,5 +86,26 @@ if (args.Length > 0 && args[0] == "profile")
     return 0;
 }
 
+if (args.Length > 0 && (args[0] == "choosek" || args[0] == "choosek-search"))
+{
+    // choosek X.npy LABELS.npy k,k,k [threads]: candidate fit vs full fit per count (silhouette, NMI vs labels)
+    // choosek-search X.npy LABELS.npy min max [threads]: the search, its pick and the NMI of the final fit
+    var matrix = NpyMatrix.Load(args[1]);
+    TopicGroups.Core.Vectors.RowNormalisation.NormaliseInPlace(matrix);
+    int[] labels = NpyMatrix.Load(args[2]).Values.Select(v => (int)v).ToArray();
+    if (args[0] == "choosek")
+    {
+        int threads = args.Length > 4 ? int.Parse(args[4]) : Environment.ProcessorCount;
+        GroupCountStudy.Run(matrix, labels, args[3].Split(',').Select(int.Parse).ToArray(), threads);
+    }
+    else
+    {
+        int threads = args.Length > 5 ? int.Parse(args[5]) : Environment.ProcessorCount;
+        GroupCountStudy.Search(matrix, labels, int.Parse(args[3]), int.Parse(args[4]), threads);
+    }
+
+    return 0;
+}
+
 BenchmarkSwitcher.FromAssembly(typeof(BlockScoresBenchmarks).Assembly).Run(args);
 return 0;

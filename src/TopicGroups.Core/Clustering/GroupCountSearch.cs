@@ -9,19 +9,27 @@ namespace TopicGroups.Core.Clustering;
 /// groups on a near-tie. The whole curve is returned so that a person can overrule the choice.
 /// </summary>
 /// <remarks>
-/// Cost control, so that choosing costs a small multiple of one grouping:
+/// Fit quality, so that each point of the curve is the silhouette of a good grouping at that count: each candidate
+/// is one k-means++ run followed by split-merge moves (<see cref="SplitMergeRefinement"/>), which fix what k-means++
+/// gets wrong on uneven groups (a large group split in two, small groups merged); without them high counts were
+/// under-scored and the curve peaked far too low (docs/algorithms.md §8).
+/// <para>Cost control, so that choosing costs a small multiple of one grouping:</para>
 /// <list type="bullet">
 /// <item>Candidates are clustered on a seeded subset of at most <see cref="GroupCountSearchOptions.CandidateRowLimit"/>
-/// rows, with one restart and at most 20 iterations (every candidate by the same policy and seed, so their
-/// silhouettes compare like with like). The caller then runs the full grouping once at the chosen count.</item>
+/// rows, with one restart, at most 20 iterations and at most 16 moves of at most 8 iterations each. The caller then
+/// runs the full grouping once at the chosen count, starting one restart from the chosen candidate's centres.</item>
 /// <item>The range is searched coarse-to-fine: <see cref="GroupCountSearchDefaults.CoarsePoints"/> geometrically
-/// spaced counts first, then repeated bisection of the gaps on both sides of the current choice and of the current
-/// best, until both have tried neighbours on each side. A range of 2–40 costs about 12–16 candidates, not 39.</item>
+/// spaced counts first, each from its own k-means++ seeds; then repeated bisection of the gaps on both sides of the
+/// current choice and of the current best, until both have tried neighbours on each side. Refinement candidates
+/// start from the nearest tried count's centres (split along principal directions or with the least useful centres
+/// removed), so they rarely need a move. A range of 2–40 costs about 12–18 candidates, not 39.</item>
 /// <item>Each silhouette costs O(n d + m k d) (see <see cref="Silhouette"/>), small next to clustering.</item>
 /// </list>
 /// Choice rule: let s* be the highest mean silhouette tried; the chosen count is the smallest tried count whose
-/// silhouette is at least s* − TieTolerance (default 0.01). When s* is below the no-structure threshold the reason
-/// says so; the count is still chosen by the same rule (it is then almost always the minimum).
+/// silhouette is at least s* − one standard error of s* (the sampled silhouettes' standard deviation over √m; the
+/// one-standard-error rule of Breiman et al., 1984, and Hastie, Tibshirani &amp; Friedman, 2009, §7.10), or
+/// s* − TieTolerance when the caller fixes one. When s* is below the no-structure threshold the reason says so, the
+/// refinement stops after the coarse grid and the smallest count of the range is returned.
 /// </remarks>
 public static class GroupCountSearch
 {
@@ -51,7 +59,8 @@ public static class GroupCountSearch
         int[] sample = Silhouette.SampleRows(candidateRows.Rows, options.SilhouetteSampleSize, ref sampleRandom);
 
         var tried = new SortedDictionary<int, GroupCountCandidate>();
-        void Try(int k)
+        var fits = new Dictionary<int, ClusteringResult>();
+        void Try(int k, bool warmStart)
         {
             if (tried.ContainsKey(k))
             {
@@ -59,19 +68,28 @@ public static class GroupCountSearch
             }
 
             cancellationToken.ThrowIfCancellationRequested();
-            GroupCountCandidate candidate = Score(candidateRows, k, sample, options, workers, cancellationToken);
+            ClusteringResult? neighbour = warmStart ? fits[NearestTried(tried, k)] : null;
+            (GroupCountCandidate candidate, ClusteringResult fit) = Score(candidateRows, k, neighbour, sample, options, workers, cancellationToken);
             tried.Add(k, candidate);
+            fits.Add(k, fit);
             candidateScored?.Invoke(candidate);
         }
 
         foreach (int k in CoarseGrid(minimum, maximum, GroupCountSearchDefaults.CoarsePoints))
         {
-            Try(k);
+            Try(k, warmStart: false);
         }
 
+        // Without structure every count is an arbitrary cut: no refinement, and the fewest groups are returned.
+        double threshold = GroupCountSearchOptions.NoStructureThreshold(unitRows.Dimensions);
         while (true)
         {
-            (int chosen, int best, _) = Choose(tried.Values, options.TieTolerance);
+            (int chosen, int best, double bestSoFar) = Choose(tried.Values, options.TieTolerance);
+            if (bestSoFar < threshold)
+            {
+                break;
+            }
+
             int[] next = [.. Midpoints(tried.Keys, chosen), .. Midpoints(tried.Keys, best)];
             next = next.Distinct().Where(k => !tried.ContainsKey(k)).Order().ToArray();
             if (next.Length == 0)
@@ -81,13 +99,19 @@ public static class GroupCountSearch
 
             foreach (int k in next)
             {
-                Try(k);
+                Try(k, warmStart: true);
             }
         }
 
         (int chosenCount, int bestCount, double bestSilhouette) = Choose(tried.Values, options.TieTolerance);
-        double threshold = GroupCountSearchOptions.NoStructureThreshold(unitRows.Dimensions);
-        GroupCountChoiceReason reason = bestSilhouette < threshold ? GroupCountChoiceReason.NoStructure
+        double tolerance = options.TieTolerance ?? tried[bestCount].SilhouetteStandardError;
+        bool noStructure = bestSilhouette < threshold;
+        if (noStructure)
+        {
+            chosenCount = minimum;
+        }
+
+        GroupCountChoiceReason reason = noStructure ? GroupCountChoiceReason.NoStructure
             : chosenCount == bestCount ? GroupCountChoiceReason.HighestSilhouette
             : GroupCountChoiceReason.NearTieFewerGroups;
 
@@ -97,11 +121,12 @@ public static class GroupCountSearch
             MaximumGroupCount = maximum,
             Curve = tried.Values.ToArray(),
             ChosenGroupCount = chosenCount,
+            ChosenCentroids = fits[chosenCount].Centroids,
             BestGroupCount = bestCount,
             BestSilhouette = bestSilhouette,
             Reason = reason,
             NoStructureThreshold = threshold,
-            TieTolerance = options.TieTolerance,
+            TieTolerance = tolerance,
             CandidateRows = candidateRows.Rows,
             SampleSize = sample.Length,
             Elapsed = Stopwatch.GetElapsedTime(start),
@@ -110,9 +135,10 @@ public static class GroupCountSearch
 
     /// <summary>
     /// The rule: the best is the highest silhouette (the lower count on an exact tie); the chosen count is the
-    /// smallest whose silhouette is at least best − tolerance. Candidates are in ascending order of count.
+    /// smallest whose silhouette is at least best − tolerance, where tolerance null means one standard error of the
+    /// best count's sampled mean silhouette (the one-standard-error rule). Candidates may come in any order.
     /// </summary>
-    internal static (int Chosen, int Best, double BestSilhouette) Choose(IEnumerable<GroupCountCandidate> candidates, double tolerance)
+    internal static (int Chosen, int Best, double BestSilhouette) Choose(IEnumerable<GroupCountCandidate> candidates, double? tolerance)
     {
         GroupCountCandidate[] ordered = candidates.OrderBy(c => c.GroupCount).ToArray();
         if (ordered.Length == 0)
@@ -129,9 +155,14 @@ public static class GroupCountSearch
             }
         }
 
-        GroupCountCandidate chosen = ordered.First(c => c.Silhouette >= best.Silhouette - tolerance);
+        double margin = tolerance ?? best.SilhouetteStandardError;
+        GroupCountCandidate chosen = ordered.First(c => c.Silhouette >= best.Silhouette - margin);
         return (chosen.GroupCount, best.GroupCount, best.Silhouette);
     }
+
+    /// <summary>The tried count nearest to <paramref name="k"/>; on equal distance the one with the higher silhouette.</summary>
+    private static int NearestTried(SortedDictionary<int, GroupCountCandidate> tried, int k) =>
+        tried.Values.OrderBy(c => Math.Abs(c.GroupCount - k)).ThenByDescending(c => c.Silhouette).ThenBy(c => c.GroupCount).First().GroupCount;
 
     /// <summary>
     /// About <paramref name="points"/> counts from minimum to maximum (both included), spaced geometrically
@@ -183,30 +214,60 @@ public static class GroupCountSearch
         }
     }
 
-    private static GroupCountCandidate Score(
+    /// <summary>
+    /// Clusters the candidate rows into k groups (k-means++ seeds, or a warm start resized from a neighbouring
+    /// count's fit), applies the split-merge moves, and scores the result by the sampled mean silhouette.
+    /// </summary>
+    private static (GroupCountCandidate Candidate, ClusteringResult Fit) Score(
         EmbeddingMatrix rows,
         int k,
+        ClusteringResult? neighbour,
         int[] sample,
         GroupCountSearchOptions options,
         int workers,
         CancellationToken cancellationToken)
     {
         long start = Stopwatch.GetTimestamp();
+        var fitOptions = new SphericalKMeansOptions
+        {
+            GroupCount = k,
+            Seed = options.Seed,
+            RestartCount = options.CandidateRestartCount,
+            MaxIterations = options.CandidateMaxIterations,
+            ConvergenceTolerance = options.CandidateConvergenceTolerance,
+            MaxDegreeOfParallelism = options.MaxDegreeOfParallelism,
+        };
+        float[]? warm = neighbour is null ? null : SplitMergeRefinement.Resize(rows, neighbour, k, options.MaxDegreeOfParallelism, cancellationToken);
         ClusteringResult fit = SphericalKMeans.Fit(
-            rows,
-            new SphericalKMeansOptions
-            {
-                GroupCount = k,
-                Seed = options.Seed,
-                RestartCount = options.CandidateRestartCount,
-                MaxIterations = options.CandidateMaxIterations,
-                ConvergenceTolerance = options.CandidateConvergenceTolerance,
-                MaxDegreeOfParallelism = options.MaxDegreeOfParallelism,
-            },
-            progress: null,
-            cancellationToken);
+            rows, warm is null ? fitOptions : fitOptions with { InitialCentroids = warm, RestartCount = 1 }, progress: null, cancellationToken);
+        fit = SplitMergeRefinement.Refine(
+            rows, fit, fitOptions, options.CandidateMoveLimit, GroupCountSearchDefaults.CandidateMoveAttempts, out int moves, cancellationToken);
         SilhouetteSample silhouettes = Silhouette.Compute(rows, fit.Assignments, k, sample, workers, cancellationToken);
-        return new GroupCountCandidate(k, silhouettes.Mean, fit.Objective, Stopwatch.GetElapsedTime(start));
+        var candidate = new GroupCountCandidate(k, silhouettes.Mean, fit.Objective, Stopwatch.GetElapsedTime(start))
+        {
+            Moves = moves,
+            WarmStarted = warm is not null,
+            SilhouetteStandardError = StandardError(silhouettes.Values),
+        };
+        return (candidate, fit);
+    }
+
+    /// <summary>Standard deviation of the sampled silhouettes over √m: the standard error of their mean.</summary>
+    private static double StandardError(double[] values)
+    {
+        if (values.Length < 2)
+        {
+            return 0;
+        }
+
+        double mean = values.Average();
+        double sumOfSquares = 0;
+        foreach (double value in values)
+        {
+            sumOfSquares += (value - mean) * (value - mean);
+        }
+
+        return Math.Sqrt(sumOfSquares / (values.Length - 1) / values.Length);
     }
 
     /// <summary>

@@ -21,11 +21,17 @@ public static class GroupCountSearchDefaults
     /// <summary>Iterations per candidate at most.</summary>
     public const int CandidateMaxIterations = 20;
 
+    /// <summary>
+    /// Split-merge moves per candidate at most (<see cref="SplitMergeRefinement"/>): each moves the least useful centre
+    /// into the group whose split gains most and keeps the move only when the objective rises.
+    /// </summary>
+    public const int CandidateMoveLimit = 16;
+
+    /// <summary>Groups tried, largest split gain first, before a candidate's moves stop.</summary>
+    public const int CandidateMoveAttempts = 3;
+
     /// <summary>A candidate run stops when an iteration raises the objective by less than this fraction.</summary>
     public const double CandidateConvergenceTolerance = 1e-4;
-
-    /// <summary>Counts whose mean silhouette is within this of the best count tie; the fewest groups among them win.</summary>
-    public const double TieTolerance = 0.01;
 
     /// <summary>Points of the first, coarse pass over the range (geometric spacing); the search then refines.</summary>
     public const int CoarsePoints = 8;
@@ -67,11 +73,17 @@ public sealed record GroupCountSearchOptions
     /// <value>The default is 20 iterations per candidate.</value>
     public int CandidateMaxIterations { get; init; } = GroupCountSearchDefaults.CandidateMaxIterations;
 
+    /// <value>The default is 16 moves; 0 turns the moves off (plain k-means++ and Lloyd, which merges small groups).</value>
+    public int CandidateMoveLimit { get; init; } = GroupCountSearchDefaults.CandidateMoveLimit;
+
     /// <value>The default is 1e-4.</value>
     public double CandidateConvergenceTolerance { get; init; } = GroupCountSearchDefaults.CandidateConvergenceTolerance;
 
-    /// <value>The default is 0.01 (silhouette units).</value>
-    public double TieTolerance { get; init; } = GroupCountSearchDefaults.TieTolerance;
+    /// <summary>
+    /// Counts whose mean silhouette is within this of the best count's tie, and the fewest groups among them win.
+    /// </summary>
+    /// <value>The default is null: one standard error of the best count's sampled mean silhouette (the one-standard-error rule).</value>
+    public double? TieTolerance { get; init; }
 
     /// <value>The default is -1: all cores. Results do not depend on it.</value>
     public int MaxDegreeOfParallelism { get; init; } = -1;
@@ -154,7 +166,12 @@ public sealed record GroupCountSearchOptions
                 nameof(CandidateRestartCount));
         }
 
-        if (!(TieTolerance >= 0) || !(CandidateConvergenceTolerance >= 0))
+        if (CandidateMoveLimit < 0)
+        {
+            throw new ArgumentException($"CandidateMoveLimit is {CandidateMoveLimit}; it must be zero (no moves) or positive.", nameof(CandidateMoveLimit));
+        }
+
+        if (TieTolerance is double tieTolerance && !(tieTolerance >= 0) || !(CandidateConvergenceTolerance >= 0))
         {
             throw new ArgumentException(
                 $"TieTolerance ({TieTolerance}) and CandidateConvergenceTolerance ({CandidateConvergenceTolerance}) must be zero or positive.",

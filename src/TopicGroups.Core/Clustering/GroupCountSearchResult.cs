@@ -4,7 +4,17 @@ namespace TopicGroups.Core.Clustering;
 /// <param name="Silhouette">Mean cosine silhouette of the sampled rows (Rousseeuw, 1987), in [−1, 1]; higher is better.</param>
 /// <param name="Objective">Mean cosine of each candidate row to its centre; it rises with the count, so it is shown, not used to choose.</param>
 /// <param name="Elapsed">Clustering plus scoring time of this candidate.</param>
-public readonly record struct GroupCountCandidate(int GroupCount, double Silhouette, double Objective, TimeSpan Elapsed);
+public readonly record struct GroupCountCandidate(int GroupCount, double Silhouette, double Objective, TimeSpan Elapsed)
+{
+    /// <summary>Split-merge moves kept after the candidate's k-means run (see GroupCountSearchOptions.CandidateMoveLimit).</summary>
+    public int Moves { get; init; }
+
+    /// <summary>True when the fit started from a neighbouring count's centres (resized) instead of k-means++ seeds.</summary>
+    public bool WarmStarted { get; init; }
+
+    /// <summary>Standard deviation of the sampled silhouettes over √(sample size); the near-tie margin by default.</summary>
+    public double SilhouetteStandardError { get; init; }
+}
 
 /// <summary>Why a count was chosen.</summary>
 public enum GroupCountChoiceReason
@@ -31,6 +41,9 @@ public sealed record GroupCountSearchResult
     public required IReadOnlyList<GroupCountCandidate> Curve { get; init; }
 
     public required int ChosenGroupCount { get; init; }
+
+    /// <summary>The chosen candidate's centres (k × d, unit rows): the final grouping starts one run from them.</summary>
+    internal float[] ChosenCentroids { get; init; } = [];
 
     /// <summary>The count with the highest mean silhouette, and that silhouette.</summary>
     public required int BestGroupCount { get; init; }

@@ -39,12 +39,24 @@ public sealed class GroupingPipeline
             };
         }
 
-        ClusteringResult clustering = SphericalKMeans.Fit(
-            rows,
-            clusteringOptions,
-            progress is null ? null : p => progress(new GroupingProgress(
-                p.Stage == ClusteringStage.Seeding ? GroupingStage.Seeding : GroupingStage.Refining, p.Restart, p.Iteration, p.Objective)),
-            cancellationToken);
+        Action<ClusteringProgress>? clusteringProgress = progress is null ? null : p => progress(new GroupingProgress(
+            p.Stage == ClusteringStage.Seeding ? GroupingStage.Seeding : GroupingStage.Refining, p.Restart, p.Iteration, p.Objective));
+        ClusteringResult clustering = SphericalKMeans.Fit(rows, clusteringOptions, clusteringProgress, cancellationToken);
+        if (choice is not null && clusteringOptions.InitialCentroids is null)
+        {
+            // One more run from the chosen candidate's centres (after its split-merge moves), kept only when its
+            // objective is higher: plain k-means++ restarts can merge small groups the search had separated, and the
+            // grouping should be as good as the curve's point that chose it.
+            ClusteringResult fromCandidate = SphericalKMeans.Fit(
+                rows,
+                clusteringOptions with { InitialCentroids = choice.ChosenCentroids, RestartCount = 1 },
+                clusteringProgress,
+                cancellationToken);
+            if (fromCandidate.Objective > clustering.Objective)
+            {
+                clustering = fromCandidate;
+            }
+        }
 
         progress?.Invoke(new GroupingProgress(GroupingStage.Describing, clustering.KeptRestart, clustering.Iterations, clustering.Objective));
         cancellationToken.ThrowIfCancellationRequested();

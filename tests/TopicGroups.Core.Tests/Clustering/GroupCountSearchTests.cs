@@ -24,6 +24,57 @@ public sealed class GroupCountSearchTests
     }
 
     [Theory]
+    [InlineData(1)]
+    [InlineData(2)]
+    public void Search_UnevenGroupsSharingADirection_FindsTheirCount(int seed)
+    {
+        // 16 groups of 40 to 1,183 rows whose centres share a direction (pairwise cosine about 0.3), rows at cosine
+        // about 0.5 to their centre. k-means++ alone puts two centres into large groups and merges small ones, so
+        // high counts were under-scored: without the split-merge moves (and with the former 0.01 tie tolerance) this
+        // search chose 5 (seed 1) and 8 (seed 2).
+        EmbeddingMatrix rows = UnevenGroups(seed, out _);
+
+        GroupCountSearchResult result = GroupCountSearch.Search(rows, new GroupCountSearchOptions());
+
+        Assert.True(result.ChosenGroupCount == 16, $"seed {seed}: chose {result.ChosenGroupCount}, curve {Curve(result)}");
+        Assert.False(result.NoStructure);
+    }
+
+    [Fact]
+    public void Search_EveryCandidate_ScoresAtLeastAsWellAsAFullFitAtItsCount()
+    {
+        // A full fit = the final grouping's default settings (4 restarts, 50 iterations); the candidates' cheaper
+        // settings plus moves must not under-score a count, or the curve would mislead the choice.
+        EmbeddingMatrix rows = UnevenGroups(seed: 1, out _);
+        GroupCountSearchResult result = GroupCountSearch.Search(rows, new GroupCountSearchOptions());
+        int[] everyRow = Enumerable.Range(0, rows.Rows).ToArray();     // fewer rows than the sample size: all are scored
+
+        foreach (GroupCountCandidate candidate in result.Curve.Where(c => c.GroupCount >= 5))
+        {
+            ClusteringResult full = SphericalKMeans.Fit(rows, new SphericalKMeansOptions { GroupCount = candidate.GroupCount });
+            double fullSilhouette = Silhouette.Compute(rows, full.Assignments, candidate.GroupCount, everyRow, workerCount: 1).Mean;
+            Assert.True(
+                candidate.Silhouette >= fullSilhouette - 0.01,
+                FormattableString.Invariant($"k = {candidate.GroupCount}: candidate {candidate.Silhouette:F4}, full fit {fullSilhouette:F4}"));
+        }
+    }
+
+    [Fact]
+    public void Search_TrueCountFound_CandidateRecoversTheTrueGroups()
+    {
+        EmbeddingMatrix rows = UnevenGroups(seed: 2, out int[] labels);
+        GroupCountSearchResult result = GroupCountSearch.Search(rows, new GroupCountSearchOptions());
+        Assert.Equal(16, result.ChosenGroupCount);
+
+        int[] assignments = new int[rows.Rows];
+        NearestCentroid.Assign(rows, result.ChosenCentroids, assignments);
+
+        double nmi = PartitionAgreement.NormalisedMutualInformation(labels, assignments);
+        Assert.True(nmi > 0.95, $"NMI {nmi:F3}");
+        Assert.True(result.Curve.Sum(c => c.Moves) > 0, "no move was kept: the data no longer exercises the moves");
+    }
+
+    [Theory]
     [InlineData(16)]
     [InlineData(64)]
     [InlineData(384)]
@@ -36,6 +87,8 @@ public sealed class GroupCountSearchTests
         Assert.True(result.NoStructure, $"d = {d}: best {result.BestSilhouette:F4} vs threshold {result.NoStructureThreshold:F4}, curve {Curve(result)}");
         Assert.Equal(GroupCountChoiceReason.NoStructure, result.Reason);
         Assert.StartsWith("No clear structure", result.Explanation);
+        Assert.Equal(result.MinimumGroupCount, result.ChosenGroupCount);     // no themes: the fewest arbitrary cuts
+        Assert.Equal(GroupCountSearch.CoarseGrid(2, result.MaximumGroupCount, GroupCountSearchDefaults.CoarsePoints).Length, result.Curve.Count);
         // Near zero indeed: about 1.5 / d for uniform vectors (docs/algorithms.md §8).
         Assert.InRange(result.BestSilhouette, -0.05, 3.0 / d);
     }
@@ -184,6 +237,10 @@ public sealed class GroupCountSearchTests
         Assert.Equal(3.0 / 16, GroupCountSearchOptions.NoStructureThreshold(16));
         Assert.Equal(0.5, GroupCountSearchOptions.NoStructureThreshold(2));
     }
+
+    /// <summary>16 uneven groups in 128 dimensions, about 4,000 rows (see <see cref="TestData.UnevenUnitClusters"/>).</summary>
+    internal static EmbeddingMatrix UnevenGroups(int seed, out int[] labels) =>
+        TestData.UnevenUnitClusters(seed, n: 4000, d: 128, trueGroups: 16, centreCorrelation: 0.3, noise: 0.153, minimumSize: 40, out labels);
 
     internal static EmbeddingMatrix Uniform(int seed, int n, int d)
     {

@@ -139,6 +139,23 @@ public sealed class GroupQualityTests
     }
 
     [Fact]
+    public void Run_AutoOnUnevenGroups_FinalGroupingAsGoodAsTheCurvesPointAndAFixedRun()
+    {
+        EmbeddingMatrix rows = GroupCountSearchTests.UnevenGroups(seed: 1, out int[] labels);
+        var copy = new EmbeddingMatrix((float[])rows.Values.Clone(), rows.Rows, rows.Dimensions);
+
+        GroupingResult auto = new GroupingPipeline().Run(Input(rows, GroupingDefaults.ChooseGroupCount));
+        GroupingResult fixedRun = new GroupingPipeline().Run(Input(copy, groupCount: 16));
+
+        Assert.Equal(16, auto.GroupCountChoice!.ChosenGroupCount);
+        double curvePoint = auto.GroupCountChoice.Curve.Single(c => c.GroupCount == 16).Silhouette;
+        Assert.True(auto.Quality!.Silhouette >= curvePoint - 0.01, $"grouping {auto.Quality.Silhouette:F4}, curve {curvePoint:F4}");
+        Assert.True(auto.Statistics.Objective >= fixedRun.Statistics.Objective);
+        double nmi = PartitionAgreement.NormalisedMutualInformation(labels, auto.Documents.Select(p => p.GroupId).ToArray());
+        Assert.True(nmi > 0.95, $"NMI {nmi:F3}");
+    }
+
+    [Fact]
     public void Run_RunnerUpSimilarity_OwnSimilarityMinusMargin()
     {
         GroupingInput input = Input(TestData.UnitClusters(seed: 37, n: 300, d: 16, trueGroups: 4, noise: 0.5, out _), groupCount: 4);

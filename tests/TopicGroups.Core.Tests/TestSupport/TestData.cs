@@ -80,6 +80,64 @@ internal static class TestData
         return matrix;
     }
 
+    /// <summary>
+    /// Groups of very uneven size whose centres share a common direction, like sentence embeddings: group g (g = 0, 1,
+    /// ...) holds about n / ((g + 1) H) rows (Zipf sizes, H the harmonic number; at least <paramref name="minimumSize"/>),
+    /// centres √ρ u₀ + √(1 − ρ) u_g (pairwise cosine about ρ = <paramref name="centreCorrelation"/>), rows the centre
+    /// plus Gaussian noise of deviation <paramref name="noise"/> per coordinate, normalised (cosine to the own centre
+    /// about 1 / √(1 + noise² d)). Rows are in group order. Modelled on ../shared/peers/gen.py's hard setting.
+    /// </summary>
+    public static EmbeddingMatrix UnevenUnitClusters(
+        int seed, int n, int d, int trueGroups, double centreCorrelation, double noise, int minimumSize, out int[] labels)
+    {
+        var random = new SplitMix64((ulong)seed);
+        double[] common = new double[d];
+        for (int p = 0; p < d; p++)
+        {
+            common[p] = Gaussian(ref random);
+        }
+
+        Normalise(common);
+        double[] centres = new double[trueGroups * d];
+        for (int g = 0; g < trueGroups; g++)
+        {
+            Span<double> own = centres.AsSpan(g * d, d);
+            for (int p = 0; p < d; p++)
+            {
+                own[p] = Gaussian(ref random);
+            }
+
+            Normalise(own);
+            for (int p = 0; p < d; p++)
+            {
+                own[p] = Math.Sqrt(centreCorrelation) * common[p] + Math.Sqrt(1 - centreCorrelation) * own[p];
+            }
+
+            Normalise(own);
+        }
+
+        double harmonic = Enumerable.Range(1, trueGroups).Sum(r => 1.0 / r);
+        int[] sizes = Enumerable.Range(0, trueGroups).Select(g => Math.Max(minimumSize, (int)(n / ((g + 1) * harmonic)))).ToArray();
+        labels = new int[sizes.Sum()];
+        var matrix = EmbeddingMatrix.Allocate(labels.Length, d);
+        int row = 0;
+        for (int g = 0; g < trueGroups; g++)
+        {
+            for (int member = 0; member < sizes[g]; member++, row++)
+            {
+                labels[row] = g;
+                Span<float> values = matrix.Row(row);
+                for (int p = 0; p < d; p++)
+                {
+                    values[p] = (float)(centres[g * d + p] + noise * Gaussian(ref random));
+                }
+            }
+        }
+
+        RowNormalisation.NormaliseInPlace(matrix);
+        return matrix;
+    }
+
     /// <summary>n copies of one unit row: no two rows can be told apart.</summary>
     public static EmbeddingMatrix Duplicates(int n, int d)
     {
