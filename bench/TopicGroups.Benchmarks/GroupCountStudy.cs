@@ -33,12 +33,31 @@ internal static class GroupCountStudy
     public static void Search(EmbeddingMatrix unitRows, int[] labels, int minimum, int maximum, int threads)
     {
         var culture = CultureInfo.InvariantCulture;
+        // Untimed warm-up on the first 2,000 rows so that compilation is not charged to the search.
+        var warmUp = new EmbeddingMatrix(unitRows.Values[..(Math.Min(2000, unitRows.Rows) * unitRows.Dimensions)], Math.Min(2000, unitRows.Rows), unitRows.Dimensions);
+        GroupCountSearchResult warmed = GroupCountSearch.Search(warmUp, new GroupCountSearchOptions { MaximumGroupCount = 12, MaxDegreeOfParallelism = threads });
+        SphericalKMeans.Fit(warmUp, new SphericalKMeansOptions { GroupCount = warmed.ChosenGroupCount, MaxDegreeOfParallelism = threads, InitialCentroids = warmed.ChosenCentroids });
+        SphericalKMeans.Fit(warmUp, new SphericalKMeansOptions { GroupCount = 12, MaxDegreeOfParallelism = threads });
         TimeSpan cpu0 = Process.GetCurrentProcess().TotalProcessorTime;
+        TimeSpan lastCpu = cpu0;
         long start = Stopwatch.GetTimestamp();
         GroupCountSearchResult result = GroupCountSearch.Search(
             unitRows,
-            new GroupCountSearchOptions { MinimumGroupCount = minimum, MaximumGroupCount = maximum, MaxDegreeOfParallelism = threads },
-            c => Console.WriteLine(string.Create(culture, $"  tried {c.GroupCount}\tsil {c.Silhouette:F4}\tobj {c.Objective:F4}\tmoves {c.Moves}\twarm {c.WarmStarted}\tse {c.SilhouetteStandardError:F4}\t{c.Elapsed.TotalSeconds:F2}s")));
+            new GroupCountSearchOptions
+            {
+                MinimumGroupCount = minimum,
+                MaximumGroupCount = maximum,
+                MaxDegreeOfParallelism = threads,
+                CandidateMoveAttempts = int.TryParse(Environment.GetEnvironmentVariable("CHOOSEK_ATTEMPTS"), out int attempts) ? attempts : GroupCountSearchDefaults.CandidateMoveAttempts,
+                CandidateMoveLimit = int.TryParse(Environment.GetEnvironmentVariable("CHOOSEK_MOVES"), out int moves) ? moves : GroupCountSearchDefaults.CandidateMoveLimit,
+            },
+            c =>
+            {
+                TimeSpan now = Process.GetCurrentProcess().TotalProcessorTime;
+                Console.Write(string.Create(culture, $"  cpu {(now - lastCpu).TotalSeconds:F2}s"));
+                lastCpu = now;
+                Console.WriteLine(string.Create(culture, $"  tried {c.GroupCount}\tsil {c.Silhouette:F4}\tobj {c.Objective:F4}\tmoves {c.Moves}\twarm {c.WarmStarted}\tse {c.SilhouetteStandardError:F4}\t{c.Elapsed.TotalSeconds:F2}s"));
+            });
         double searchSeconds = Stopwatch.GetElapsedTime(start).TotalSeconds;
         TimeSpan cpu1 = Process.GetCurrentProcess().TotalProcessorTime;
         start = Stopwatch.GetTimestamp();

@@ -241,7 +241,7 @@ public static class GroupCountSearch
         ClusteringResult fit = SphericalKMeans.Fit(
             rows, warm is null ? fitOptions : fitOptions with { InitialCentroids = warm, RestartCount = 1 }, progress: null, cancellationToken);
         fit = SplitMergeRefinement.Refine(
-            rows, fit, fitOptions, options.CandidateMoveLimit, GroupCountSearchDefaults.CandidateMoveAttempts, out int moves, cancellationToken);
+            rows, fit, fitOptions, options.CandidateMoveLimit, options.CandidateMoveAttempts, out int moves, cancellationToken);
         SilhouetteSample silhouettes = Silhouette.Compute(rows, fit.Assignments, k, sample, workers, cancellationToken);
         var candidate = new GroupCountCandidate(k, silhouettes.Mean, fit.Objective, Stopwatch.GetElapsedTime(start))
         {

@@ -76,6 +76,9 @@ public sealed record GroupCountSearchOptions
     /// <value>The default is 16 moves; 0 turns the moves off (plain k-means++ and Lloyd, which merges small groups).</value>
     public int CandidateMoveLimit { get; init; } = GroupCountSearchDefaults.CandidateMoveLimit;
 
+    /// <summary>Groups tried per move, largest split gain first (internal: for measurements).</summary>
+    internal int CandidateMoveAttempts { get; init; } = GroupCountSearchDefaults.CandidateMoveAttempts;
+
     /// <value>The default is 1e-4.</value>
     public double CandidateConvergenceTolerance { get; init; } = GroupCountSearchDefaults.CandidateConvergenceTolerance;
 

@@ -28,13 +28,13 @@ namespace TopicGroups.Core.Clustering;
 internal static class SplitMergeRefinement
 {
     /// <summary>Power-iteration steps for a group's principal direction.</summary>
-    private const int PowerSteps = 10;
+    private const int PowerSteps = 4;
 
     /// <summary>
     /// Lloyd iterations after each move at most: enough for a local move to settle (most moves converge sooner), and
     /// what keeps a move cheap; the search's fits use the candidate settings otherwise.
     /// </summary>
-    internal const int IterationsPerMove = 8;
+    internal const int IterationsPerMove = 6;
 
     /// <summary>A move must raise the mean cosine by more than this, so that rounding never loops.</summary>
     private const double MinimumImprovement = 1e-7;
@@ -324,7 +324,7 @@ internal static class SplitMergeRefinement
     private const int OutlyingFraction = 10;
 
     /// <summary>2-means iterations inside a group after its initial halves.</summary>
-    private const int TwoMeansSteps = 3;
+    private const int TwoMeansSteps = 2;
 
     /// <summary>
     /// From initial halves (<paramref name="inFirst"/>, per member), a few 2-means steps inside the group; returns the
