@@ -50,6 +50,9 @@ internal static class QualityJson
             json.WriteNumber("silhouette", candidate.Silhouette);
             json.WriteNumber("objective", candidate.Objective);
             json.WriteNumber("seconds", candidate.Seconds);
+            json.WriteNumber("silhouette_standard_error", candidate.SilhouetteStandardError);
+            json.WriteNumber("moves", candidate.Moves);
+            json.WriteBoolean("warm_started", candidate.WarmStarted);
             json.WriteBoolean("chosen", candidate.GroupCount == choice.ChosenGroupCount);
             json.WriteEndObject();
         }

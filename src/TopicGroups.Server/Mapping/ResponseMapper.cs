@@ -171,6 +171,9 @@ internal static class ResponseMapper
                 Silhouette = candidate.Silhouette,
                 Objective = candidate.Objective,
                 Seconds = candidate.Elapsed.TotalSeconds,
+                SilhouetteStandardError = candidate.SilhouetteStandardError,
+                Moves = candidate.Moves,
+                WarmStarted = candidate.WarmStarted,
             });
         }
 

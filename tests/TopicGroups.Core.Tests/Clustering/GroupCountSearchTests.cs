@@ -114,6 +114,21 @@ public sealed class GroupCountSearchTests
     }
 
     [Fact]
+    public void Choose_NoFixedTolerance_OneStandardErrorOfTheBest()
+    {
+        // The best (5: 0.310 ± 0.004) reaches down to 0.306: 3 (0.307) is within, 2 (0.300) is not.
+        GroupCountCandidate[] curve =
+        [
+            Candidate(2, 0.300) with { SilhouetteStandardError = 0.02 },
+            Candidate(3, 0.307) with { SilhouetteStandardError = 0.001 },
+            Candidate(5, 0.310) with { SilhouetteStandardError = 0.004 },
+            Candidate(8, 0.250),
+        ];
+
+        Assert.Equal((3, 5, 0.310), GroupCountSearch.Choose(curve, tolerance: null));
+    }
+
+    [Fact]
     public void Choose_ExactTie_FewerGroups()
     {
         GroupCountCandidate[] curve = [Candidate(9, 0.2), Candidate(4, 0.2)];

@@ -37,6 +37,11 @@ public sealed class GroupCountChoiceTests(TestHost host) : IClassFixture<TestHos
         Assert.Equal(choice.Candidates.Max(c => c.Silhouette), choice.BestSilhouette);
         Assert.StartsWith("5 groups: the highest mean silhouette", choice.Explanation);
         Assert.Equal(200, choice.SilhouetteSampleSize);
+        // The near-tie margin is one standard error of the best count's sampled mean silhouette.
+        Assert.Equal(choice.Candidates.Single(c => c.GroupCount == 5).SilhouetteStandardError, choice.TieTolerance);
+        Assert.All(choice.Candidates, c => Assert.InRange(c.SilhouetteStandardError, 1e-6, 0.1));
+        Assert.Contains(choice.Candidates, c => c.WarmStarted == false);
+        Assert.All(choice.Candidates, c => Assert.InRange(c.Moves, 0, 16));
         // Each theme lands whole in one group.
         for (int t = 0; t < 5; t++)
         {
