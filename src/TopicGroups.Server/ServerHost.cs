@@ -74,7 +74,7 @@ public static class ServerHost
         // Read through options (not at build time) so test hosts and later configuration sources apply.
         services.AddOptions<GrpcServiceOptions>()
             .Configure<IOptions<TopicGroupsLimits>>((grpc, limits) => grpc.MaxReceiveMessageSize = limits.Value.MaxMessageBytes);
-        services.AddGrpcHealthChecks().AddCheck<GroupingHealthCheck>(GroupingHealthCheck.Name);
+        builder.AddServerOperations();   // health (pipeline and store), per-call logs and metrics, shutdown
         services.AddGrpcReflection();
         services.AddMetrics();
 

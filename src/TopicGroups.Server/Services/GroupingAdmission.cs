@@ -100,11 +100,13 @@ internal sealed class GroupingAdmission
     /// Checks the memory estimate, then waits for a slot (up to the configured wait, never past the deadline).
     /// Dispose the returned lease when the computation has really stopped.
     /// </summary>
-    public async Task<IDisposable> EnterAsync(GroupingInput input, ServerCallContext context)
+    /// <param name="stopWaiting">Ends the wait early with <see cref="OperationCanceledException"/> (the server is stopping).</param>
+    public async Task<IDisposable> EnterAsync(GroupingInput input, ServerCallContext context, CancellationToken stopWaiting = default)
     {
         long estimate = EstimateBytes(input);
         if (estimate > _options.MaxGroupingMemoryBytes)
         {
+            CallFacts.MarkRejection(context, ServerMetrics.Reasons.Memory);
             throw Exhausted(
                 "grouping memory",
                 $"This grouping needs about {Mebibytes(estimate)} of working memory ({input.Embeddings.Rows} documents × "
@@ -121,8 +123,10 @@ internal sealed class GroupingAdmission
             wait = untilDeadline < TimeSpan.Zero ? TimeSpan.Zero : untilDeadline;
         }
 
-        if (!await _slots.WaitAsync(wait, context.CancellationToken))
+        using var waiting = CancellationTokenSource.CreateLinkedTokenSource(context.CancellationToken, stopWaiting);
+        if (!await _slots.WaitAsync(wait, waiting.Token))
         {
+            CallFacts.MarkRejection(context, ServerMetrics.Reasons.Admission);
             throw Exhausted(
                 "concurrent groupings",
                 $"All {_options.MaxConcurrentGroupings} grouping slots of this server are busy and none came free within "

@@ -17,11 +17,16 @@ internal sealed class GroupingRunner
     private readonly GroupingPipeline _pipeline;
     private readonly GroupingAdmission _admission;
     private readonly UpDownCounter<int> _activeRuns;
+    private readonly ServerMetrics _metrics;
+    private readonly GracefulShutdown _shutdown;
 
-    public GroupingRunner(GroupingPipeline pipeline, GroupingAdmission admission, IMeterFactory meterFactory)
+    public GroupingRunner(
+        GroupingPipeline pipeline, GroupingAdmission admission, IMeterFactory meterFactory, ServerMetrics metrics, GracefulShutdown shutdown)
     {
         _pipeline = pipeline;
         _admission = admission;
+        _metrics = metrics;
+        _shutdown = shutdown;
         Meter meter = meterFactory.Create(MeterName);
         _activeRuns = meter.CreateUpDownCounter<int>(
             ActiveRunsInstrument,
@@ -41,19 +46,24 @@ internal sealed class GroupingRunner
         TextsToEmbed? textsToEmbed = null,
         Action<int, int>? embeddingProgress = null)
     {
-        CancellationToken cancellationToken = context.CancellationToken;
+        // The caller's token, and the server's own stop once the shutdown grace period has passed.
+        using var stopping = CancellationTokenSource.CreateLinkedTokenSource(context.CancellationToken, _shutdown.StopRunning);
+        CancellationToken cancellationToken = stopping.Token;
         IDisposable? lease = null;
         try
         {
             // Memory estimate, then a slot: RESOURCE_EXHAUSTED (with RetryInfo when only busy) before any work starts.
-            lease = await _admission.EnterAsync(input, context);
+            // A stopping server starts nothing, and stops waiting for a slot: UNAVAILABLE.
+            _shutdown.ThrowIfDraining(context);
+            lease = await _admission.EnterAsync(input, context, _shutdown.Draining);
+            _shutdown.ThrowIfDraining(context);
             _activeRuns.Add(1);
 
             // A dedicated thread, not a pool thread: a run lasts seconds to minutes, and its parallel loops then
             // queue their work to the pool's global queue behind timers and I/O callbacks instead of ahead of
             // them. Run from a pool thread, a long run was seen to hold back deadline timers for minutes.
             // The awaited task ends only when Run returns or throws, so the counter tracks real CPU work.
-            return await Task.Factory.StartNew(
+            GroupingResult result = await Task.Factory.StartNew(
                 () =>
                 {
                     textsToEmbed?.Embed(embeddingProgress, cancellationToken);
@@ -62,8 +72,16 @@ internal sealed class GroupingRunner
                 cancellationToken,
                 TaskCreationOptions.LongRunning,
                 TaskScheduler.Default);
+            _metrics.RecordGrouped(input.Embeddings.Rows);
+            return result;
         }
-        catch (OperationCanceledException) when (cancellationToken.IsCancellationRequested)
+        catch (OperationCanceledException) when (!context.CancellationToken.IsCancellationRequested && _shutdown.IsDraining)
+        {
+            throw lease is null
+                ? GracefulShutdown.Unavailable(context, "This server began shutting down while the grouping waited for a slot; retry on another replica. Nothing was computed or saved.")
+                : GracefulShutdown.Unavailable(context, "This server is shutting down and its grace period for running groupings ended, so the grouping was stopped; retry on another replica. Nothing was saved.");
+        }
+        catch (OperationCanceledException) when (context.CancellationToken.IsCancellationRequested)
         {
             bool embedding = textsToEmbed is { Run: null };
             throw context.Deadline <= DateTime.UtcNow

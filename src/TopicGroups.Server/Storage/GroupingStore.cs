@@ -72,4 +72,10 @@ public interface IGroupingStore
 
     /// <summary>The tenant's grouping saved with this request id (<see cref="SavedGrouping.Request"/>), or null.</summary>
     Task<SavedRequestRecord?> FindByRequestAsync(string tenant, string requestId, CancellationToken cancellationToken);
+
+    /// <summary>
+    /// Throws when the store cannot be used: its database unreachable, its file not creatable, its schema newer
+    /// than this server. Cheap (one connection, one tiny query); the health check calls it on every probe.
+    /// </summary>
+    Task CheckReachableAsync(CancellationToken cancellationToken);
 }

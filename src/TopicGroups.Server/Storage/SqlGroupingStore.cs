@@ -306,6 +306,14 @@ public abstract class SqlGroupingStore : IGroupingStore
     }
 
     /// <summary>Creates or migrates the schema (once per store object), then returns an open connection.</summary>
+    public async Task CheckReachableAsync(CancellationToken cancellationToken)
+    {
+        // Through OpenReadyAsync: a store whose schema cannot be created or migrated is not usable either.
+        await using DbConnection connection = await OpenReadyAsync(cancellationToken);
+        await using DbCommand command = Command(connection, null, "SELECT MAX(version) FROM topicgroups_schema_version");
+        await command.ExecuteScalarAsync(cancellationToken);
+    }
+
     protected async Task<DbConnection> OpenReadyAsync(CancellationToken cancellationToken)
     {
         if (!_migrated)
