@@ -94,7 +94,7 @@ internal sealed partial class CallTelemetry(ServerMetrics metrics, ILogger<CallT
             null => context.Status.StatusCode,
             RpcException rpc => rpc.StatusCode,
             OperationCanceledException when context.CancellationToken.IsCancellationRequested =>
-                context.Deadline <= DateTime.UtcNow ? StatusCode.DeadlineExceeded : StatusCode.Cancelled,
+                GroupingRunner.DeadlineReached(context) ? StatusCode.DeadlineExceeded : StatusCode.Cancelled,
             _ => StatusCode.Unknown,
         };
         (string service, string method) = SplitMethod(context.Method);

@@ -34,6 +34,16 @@ internal sealed class GroupingRunner
             description: "Groupings whose computation is running now; it drops when a cancelled run has really stopped.");
     }
 
+    /// <summary>
+    /// The caller's deadline timer starts before its request reaches the server, so near the deadline the caller's
+    /// own cancellation (CANCELLED here) may come first; a cancellation this close to the deadline counts as the deadline.
+    /// </summary>
+    internal static readonly TimeSpan DeadlineSlack = TimeSpan.FromMilliseconds(500);
+
+    /// <summary>True when the call's deadline has passed or is within <see cref="DeadlineSlack"/>.</summary>
+    internal static bool DeadlineReached(ServerCallContext context) =>
+        context.Deadline != DateTime.MaxValue && context.Deadline - DateTime.UtcNow <= DeadlineSlack;
+
     /// <param name="input">The validated batch.</param>
     /// <param name="progress">Grouping progress, from the computing thread.</param>
     /// <param name="context">The call: its token and deadline.</param>
@@ -84,7 +94,7 @@ internal sealed class GroupingRunner
         catch (OperationCanceledException) when (context.CancellationToken.IsCancellationRequested)
         {
             bool embedding = textsToEmbed is { Run: null };
-            throw context.Deadline <= DateTime.UtcNow
+            throw DeadlineReached(context)
                 ? new RpcException(new Status(
                     StatusCode.DeadlineExceeded,
                     embedding
