@@ -112,7 +112,7 @@ internal sealed partial class CallTelemetry(ServerMetrics metrics, ILogger<CallT
                 StatusCode.Unavailable => LogLevel.Warning,
                 _ => LogLevel.Information,
             };
-        string requestId = call.RequestId is { Length: > MaxLoggedRequestIdLength } longId ? longId[..MaxLoggedRequestIdLength] : call.RequestId ?? string.Empty;
+        string requestId = call.RequestId is { Length: > MaxLoggedRequestIdLength } longId ? longId[..MaxLoggedRequestIdLength] : call.RequestId ?? "-";
         CallFinished(logger, level, method, status, Math.Round(duration.TotalMilliseconds, 1), call.DocumentCount, CallerTenant.Of(context), requestId);
     }
 

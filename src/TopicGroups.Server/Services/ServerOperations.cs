@@ -26,11 +26,15 @@ internal static class ServerOperations
         IServiceCollection services = builder.Services;
         IConfiguration configuration = builder.Configuration;
 
-        // Lowest-priority defaults: the per-call event below replaces ASP.NET Core's two request lines per call.
+        // Lowest-priority defaults: the per-call event below replaces ASP.NET Core's request and endpoint lines per call.
         // Any configuration source can still raise them again.
         builder.Configuration.Sources.Insert(0, new MemoryConfigurationSource
         {
-            InitialData = new Dictionary<string, string?> { ["Logging:LogLevel:Microsoft.AspNetCore.Hosting.Diagnostics"] = "Warning" },
+            InitialData = new Dictionary<string, string?>
+            {
+                ["Logging:LogLevel:Microsoft.AspNetCore.Hosting.Diagnostics"] = "Warning",
+                ["Logging:LogLevel:Microsoft.AspNetCore.Routing.EndpointMiddleware"] = "Warning",
+            },
         });
 
         // Health: "" (readiness) needs every check; "liveness" only the grouping pipeline, so a database outage makes
