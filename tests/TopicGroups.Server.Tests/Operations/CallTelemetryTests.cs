@@ -49,6 +49,21 @@ public sealed class CallTelemetryTests
     }
 
     [Fact]
+    public async Task GroupDocuments_WithRequestId_IdInTheCallEvent()
+    {
+        using var host = new TelemetryHost();
+        var (documents, _) = TestBatches.WellSeparated(groupCount: 2, perTheme: 10, dimensions: 8, seed: Seed);
+        GroupDocumentsRequest request = Request(documents, new GroupingOptions { GroupCount = 2 });
+        request.RequestId = "retry-safe-0001";
+
+        await host.Client.GroupDocumentsAsync(request);
+
+        TelemetryHost.LogEvent call = Assert.Single(host.CallEvents(), e => Equals(e.Values["Method"], "GroupDocuments"));
+        Assert.Equal("retry-safe-0001", call.Values["RequestId"]);
+        Assert.Equal(20, call.Values["DocumentCount"]);
+    }
+
+    [Fact]
     public async Task GroupDocuments_Succeeds_CallDurationAndDocumentsMeasured()
     {
         using var host = new TelemetryHost();
