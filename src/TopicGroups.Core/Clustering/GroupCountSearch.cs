@@ -127,6 +127,7 @@ public static class GroupCountSearch
             Reason = reason,
             NoStructureThreshold = threshold,
             TieTolerance = tolerance,
+            TieToleranceIsStandardError = options.TieTolerance is null,
             CandidateRows = candidateRows.Rows,
             SampleSize = sample.Length,
             Elapsed = Stopwatch.GetElapsedTime(start),

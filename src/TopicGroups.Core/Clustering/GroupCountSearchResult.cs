@@ -60,6 +60,9 @@ public sealed record GroupCountSearchResult
 
     public required double TieTolerance { get; init; }
 
+    /// <summary>True when <see cref="TieTolerance"/> is one standard error of the best count's sampled mean silhouette (the default), not a fixed value.</summary>
+    public bool TieToleranceIsStandardError { get; init; }
+
     /// <summary>Rows the candidates were clustered on, and rows whose silhouettes were averaged.</summary>
     public required int CandidateRows { get; init; }
 
@@ -81,7 +84,7 @@ public sealed record GroupCountSearchResult
                     $"No clear structure: the highest mean silhouette is {BestSilhouette:F3} (at {BestGroupCount} groups), below {NoStructureThreshold:F3}; "
                     + $"the {ChosenGroupCount} groups are arbitrary cuts of one spread of documents, not themes ({tried})."),
                 GroupCountChoiceReason.NearTieFewerGroups => string.Create(culture,
-                    $"{ChosenGroupCount} groups: mean silhouette {chosen.Silhouette:F3}, within {TieTolerance:0.###} of the highest "
+                    $"{ChosenGroupCount} groups: mean silhouette {chosen.Silhouette:F3}, within {TieTolerance:0.####}{(TieToleranceIsStandardError ? " (one standard error)" : "")} of the highest "
                     + $"({BestSilhouette:F3} at {BestGroupCount} groups); near-ties go to fewer groups ({tried})."),
                 _ => string.Create(culture,
                     $"{ChosenGroupCount} groups: the highest mean silhouette, {chosen.Silhouette:F3} ({tried})."),

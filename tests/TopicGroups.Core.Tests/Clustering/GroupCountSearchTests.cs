@@ -129,6 +129,33 @@ public sealed class GroupCountSearchTests
     }
 
     [Fact]
+    public void Explanation_NearTieByStandardError_SaysWhichMargin()
+    {
+        // The figures of gen.py M (100,000 × 384): 39 chosen at 0.241, 40 best at 0.242, one standard error 0.0016.
+        var result = new GroupCountSearchResult
+        {
+            MinimumGroupCount = 2,
+            MaximumGroupCount = 40,
+            Curve = [Candidate(38, 0.238), Candidate(39, 0.241), Candidate(40, 0.242)],
+            ChosenGroupCount = 39,
+            BestGroupCount = 40,
+            BestSilhouette = 0.242,
+            Reason = GroupCountChoiceReason.NearTieFewerGroups,
+            NoStructureThreshold = 0.05,
+            TieTolerance = 0.0016,
+            TieToleranceIsStandardError = true,
+            CandidateRows = 25_000,
+            SampleSize = 5_000,
+            Elapsed = TimeSpan.FromSeconds(1),
+        };
+
+        Assert.Equal(
+            "39 groups: mean silhouette 0.241, within 0.0016 (one standard error) of the highest (0.242 at 40 groups); "
+            + "near-ties go to fewer groups (3 counts tried from 2 to 40).",
+            result.Explanation);
+    }
+
+    [Fact]
     public void Choose_ExactTie_FewerGroups()
     {
         GroupCountCandidate[] curve = [Candidate(9, 0.2), Candidate(4, 0.2)];
