@@ -14,6 +14,7 @@ namespace TopicGroups.Server.Tests.Operations;
 /// inside one stage (seeding, iterations, the choice of the group count, term weighting, the map) answers
 /// DEADLINE_EXCEEDED, its computation stops soon after the deadline, and the server's managed memory drops back.
 /// </summary>
+[Collection(TimingSensitiveCollection.Name)]
 public sealed class DeadlineStagesTests(ITestOutputHelper output) : IDisposable
 {
     private readonly string _folder = Directory.CreateTempSubdirectory("topicgroups-deadline-").FullName;

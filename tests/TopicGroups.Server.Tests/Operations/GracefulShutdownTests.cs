@@ -13,6 +13,7 @@ namespace TopicGroups.Server.Tests.Operations;
 /// a running one finishes inside the grace period, and one that outlasts it is stopped with UNAVAILABLE and leaves
 /// nothing saved.
 /// </summary>
+[Collection(TimingSensitiveCollection.Name)]
 public sealed class GracefulShutdownTests(ITestOutputHelper output) : IDisposable
 {
     private const int Seed = 20261203;
@@ -23,14 +24,15 @@ public sealed class GracefulShutdownTests(ITestOutputHelper output) : IDisposabl
     [Fact]
     public async Task Stop_WhileOneRunsAndOneWaits_RunningFinishesAndSavesWaitingGetsUnavailable()
     {
-        var (app, address) = await StartAsync(gracePeriodSeconds: 25, shutdownTimeout: "00:00:35");
+        var (app, address) = await StartAsync(gracePeriodSeconds: 90, shutdownTimeout: "00:01:40");
         using var runs = new ActiveRuns(app.Services);
         using var channel = GrpcChannel.ForAddress(address);
         var client = new TopicGroupsService.TopicGroupsServiceClient(channel);
 
-        // About a second or two of work here: long enough to stop the server under it, far inside the grace period.
-        List<Document> documents = TestBatches.Random(count: 3000, dimensions: 48, seed: Seed);
-        var options = new GroupingOptions { GroupCount = 40, RestartCount = 8, MaxIterations = 60, SaveAs = "kept-through-stop" };
+        // Seconds of work here, also with the code already compiled by other tests: long enough to stop the server
+        // under it, far inside the 90 s grace period.
+        List<Document> documents = TestBatches.Random(count: 12_000, dimensions: 64, seed: Seed);
+        var options = new GroupingOptions { GroupCount = 300, RestartCount = 4, MaxIterations = 40, SaveAs = "kept-through-stop" };
         var running = client.GroupDocumentsAsync(Request(documents, options)).ResponseAsync;
         await WaitUntilComputingAsync(runs);
 
@@ -52,7 +54,7 @@ public sealed class GracefulShutdownTests(ITestOutputHelper output) : IDisposabl
         Assert.Equal(StatusCode.Unavailable, refused.StatusCode);
         Assert.True(refusedAfter < TimeSpan.FromSeconds(2), $"the waiting call was answered {refusedAfter} after the stop signal");
         Assert.Equal("groupings/kept-through-stop", finished.SavedGroupingName);
-        Assert.Equal(3000, finished.Documents.Count);
+        Assert.Equal(12_000, finished.Documents.Count);
         await app.DisposeAsync();
 
         // Saved whole: a new server on the same file reads it back.
