@@ -18,6 +18,12 @@ public static class ServerHost
     /// <summary>Default port of the stand-alone server (configuration key TopicGroups:Port).</summary>
     public const int DefaultPort = 5231;
 
+    /// <summary>HTTP/2 receive window per request stream: 4 MiB.</summary>
+    internal const int Http2StreamWindowBytes = 4 * 1024 * 1024;
+
+    /// <summary>HTTP/2 receive window per connection, shared by its streams: 8 MiB.</summary>
+    internal const int Http2ConnectionWindowBytes = 8 * 1024 * 1024;
+
     /// <summary>
     /// Builds the application. port 0 asks the OS for a free port; null reads TopicGroups:Port
     /// (default 5231). Binds to loopback unless TopicGroups:ListenAnyAddress is true.
@@ -36,6 +42,11 @@ public static class ServerHost
                 listen.Protocols = HttpProtocols.Http2;
                 listen.UseConfiguredTls(builder.Configuration);   // TopicGroups:Tls (docs/operations.md, "Access")
             });
+
+            // Upload flow-control windows of several 512 KiB stream chunks, so a client keeps sending while the server
+            // copies the previous chunk (Kestrel's defaults: 768 KiB per stream, 1 MiB per connection; docs/performance.md).
+            kestrel.Limits.Http2.InitialStreamWindowSize = Http2StreamWindowBytes;
+            kestrel.Limits.Http2.InitialConnectionWindowSize = Http2ConnectionWindowBytes;
         });
         ConfigureServices(builder);
         var app = builder.Build();
