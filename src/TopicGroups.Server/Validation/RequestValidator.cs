@@ -362,16 +362,7 @@ internal sealed class RequestValidator
             _formSource = chunkIndex ?? 0;
         }
 
-        _embeddingValues += (long)documents.Count * dimensions;
-        if (_embeddingValues > _limits.MaxEmbeddingValues)
-        {
-            string reached = chunkIndex is int c ? $" (reached in chunk {c})" : string.Empty;
-            throw StatusErrors.ResourceExhausted(
-                "documents",
-                $"hold more than {_limits.MaxEmbeddingValues} embedding values in total by documents[{_ids.Count - 1}]{reached}, "
-                + $"{_limits.MaxEmbeddingValues * sizeof(float) / (1024 * 1024)} MiB as float32: the most this server holds "
-                + "for one batch (TopicGroups:Limits:MaxEmbeddingValues). Split the batch into smaller ones.");
-        }
+        CountEmbeddingValues((long)documents.Count * dimensions, _ids.Count - 1, chunkIndex);
 
         Span<float> rows = Intake().TakePacked(packed.Span);
         bool allFinite = EmbeddingIntake.AllFinite(rows);
@@ -482,16 +473,7 @@ internal sealed class RequestValidator
             _formSource = chunkIndex ?? 0;
         }
 
-        _embeddingValues += count;
-        if (_embeddingValues > _limits.MaxEmbeddingValues)
-        {
-            string where = chunkIndex is int chunk ? $" (reached in chunk {chunk})" : string.Empty;
-            throw StatusErrors.ResourceExhausted(
-                "documents",
-                $"hold more than {_limits.MaxEmbeddingValues} embedding values in total by documents[{index}]{where}, "
-                + $"{_limits.MaxEmbeddingValues * sizeof(float) / (1024 * 1024)} MiB as float32: the most this server holds "
-                + "for one batch (TopicGroups:Limits:MaxEmbeddingValues). Split the batch into smaller ones.");
-        }
+        CountEmbeddingValues(count, index, chunkIndex);
 
         Span<float> row = Intake().Take(1);
         UnsafeCollectionOperations.AsSpan(embedding).CopyTo(row);
@@ -727,6 +709,21 @@ internal sealed class RequestValidator
         if (_violations.Count > 0)
         {
             throw StatusErrors.InvalidArgument(_violations);
+        }
+    }
+
+    // The batch's running total against TopicGroups:Limits:MaxEmbeddingValues, for either embedding form.
+    private void CountEmbeddingValues(long added, int lastDocumentIndex, int? chunkIndex)
+    {
+        _embeddingValues += added;
+        if (_embeddingValues > _limits.MaxEmbeddingValues)
+        {
+            string reached = chunkIndex is int chunk ? $" (reached in chunk {chunk})" : string.Empty;
+            throw StatusErrors.ResourceExhausted(
+                "documents",
+                $"hold more than {_limits.MaxEmbeddingValues} embedding values in total by documents[{lastDocumentIndex}]{reached}, "
+                + $"{_limits.MaxEmbeddingValues * sizeof(float) / (1024 * 1024)} MiB as float32: the most this server holds "
+                + "for one batch (TopicGroups:Limits:MaxEmbeddingValues). Split the batch into smaller ones.");
         }
     }
 }
