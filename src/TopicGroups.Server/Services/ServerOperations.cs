@@ -47,10 +47,12 @@ internal static class ServerOperations
             .AddCheck<GroupingHealthCheck>(GroupingHealthCheck.Name, tags: [LiveTag])
             .AddCheck<StoreHealthCheck>(StoreHealthCheck.Name);
 
-        // One log event and measurements per call; first in line so it also sees other interceptors' refusals.
+        // One log event and measurements per call; first in line so it also sees the API-key check's refusals. A
+        // PostConfigure registered after AddAccess's, so it runs later and takes position 0 (the key check is second,
+        // still before everything that relies on the caller's tenant; the telemetry reads the tenant only afterwards).
         services.AddSingleton<ServerMetrics>();
         services.AddSingleton<CallTelemetry>();
-        services.AddOptions<GrpcServiceOptions>().Configure(grpc =>
+        services.PostConfigure<GrpcServiceOptions>(grpc =>
         {
             grpc.Interceptors.Add<CallTelemetry>();
             var registration = grpc.Interceptors[^1];

@@ -150,11 +150,11 @@ public sealed class CallTelemetryTests
         var (small, _) = TestBatches.WellSeparated(groupCount: 2, perTheme: 5, dimensions: 8, seed: Seed);
         await host.Client.GroupDocumentsAsync(Request(small, new GroupingOptions { GroupCount = 2 }));
 
-        // A long run (3,000 unstructured 48-d rows, 200 groups, 64 restarts: tens of seconds) that holds the one slot
+        // A long run (3,000 unstructured 48-d rows, 600 groups, 64 restarts: tens of seconds) that holds the one slot
         // until its 3 s deadline. A small message (0.6 MB): the caller's deadline clock starts before the message is
         // sent, the server's when it arrives, and the status is read as DEADLINE_EXCEEDED only near the server's.
         List<Document> big = TestBatches.Random(count: 3000, dimensions: 48, seed: Seed);
-        var longOptions = new GroupingOptions { GroupCount = 200, RestartCount = 64, MaxIterations = 1000 };
+        var longOptions = new GroupingOptions { GroupCount = 600, RestartCount = 64, MaxIterations = 1000 };
         Task<GroupDocumentsResponse> running = host.Client.GroupDocumentsAsync(Request(big, longOptions), deadline: DateTime.UtcNow.AddSeconds(3)).ResponseAsync;
         var started = DateTime.UtcNow;
         while (host.Of("topicgroups.grouping.active_runs").Sum(m => m.Value) == 0)
@@ -173,6 +173,31 @@ public sealed class CallTelemetryTests
         await WaitUntil(() => host.Of("topicgroups.rejections", ("reason", "deadline")).Count == 1, () => "no deadline rejection was counted: " + string.Join(" | ", host.CallEvents().Select(e => e.Message)) + " active " + string.Join(",", host.Of("topicgroups.grouping.active_runs").Select(m => m.Value)));
         Assert.Single(host.Of("topicgroups.rejections", ("reason", "deadline")));
         Assert.Contains(host.CallEvents(), e => Equals(e.Values["StatusCode"], StatusCode.DeadlineExceeded));
+    }
+
+    [Fact]
+    public async Task GroupDocuments_ApiKeys_TenantOfTheKeyLoggedAndRefusalsLoggedWithoutTheKey()
+    {
+        const string key = "tg-known-key-for-support-3e8a";
+        string hash = Convert.ToHexString(System.Security.Cryptography.SHA256.HashData(System.Text.Encoding.UTF8.GetBytes(key)));
+        using var host = new TelemetryHost(new Dictionary<string, string?>
+        {
+            ["TopicGroups:Access:Keys:0:Tenant"] = "support",
+            ["TopicGroups:Access:Keys:0:Sha256"] = hash,
+        });
+        var (documents, _) = TestBatches.WellSeparated(groupCount: 2, perTheme: 10, dimensions: 8, seed: Seed);
+        GroupDocumentsRequest request = Request(documents, new GroupingOptions { GroupCount = 2 });
+
+        await host.Client.GroupDocumentsAsync(request, new Metadata { { "authorization", "Bearer " + key } });
+        await RpcAssert.FailsAsync(
+            StatusCode.Unauthenticated, () => host.Client.GroupDocumentsAsync(request, new Metadata { { "authorization", "Bearer " + Secret } }).ResponseAsync);
+
+        // The telemetry runs outside the key check: it sees the tenant the check chose, and the refusal too.
+        var events = host.CallEvents().Where(e => Equals(e.Values["Method"], "GroupDocuments")).ToList();
+        Assert.Equal(2, events.Count);
+        Assert.Contains(events, e => Equals(e.Values["StatusCode"], StatusCode.OK) && Equals(e.Values["Tenant"], "support"));
+        Assert.Contains(events, e => Equals(e.Values["StatusCode"], StatusCode.Unauthenticated));
+        Assert.DoesNotContain(host.Logs, e => Mentions(e, key) || Mentions(e, Secret));
     }
 
     [Fact]

@@ -76,9 +76,9 @@ public sealed class GracefulShutdownTests(ITestOutputHelper output) : IDisposabl
         using var channel = GrpcChannel.ForAddress(address);
         var client = new TopicGroupsService.TopicGroupsServiceClient(channel);
 
-        // Tens of seconds of work (3,000 unstructured rows, 200 groups, 64 restarts): far past the 1 s grace period.
+        // Tens of seconds of work (3,000 unstructured rows, 600 groups, 64 restarts): far past the 1 s grace period.
         List<Document> documents = TestBatches.Random(count: 3000, dimensions: 48, seed: Seed);
-        var options = new GroupingOptions { GroupCount = 200, RestartCount = 64, MaxIterations = 1000, SaveAs = "never-half-saved" };
+        var options = new GroupingOptions { GroupCount = 600, RestartCount = 64, MaxIterations = 1000, SaveAs = "never-half-saved" };
         var running = client.GroupDocumentsAsync(Request(documents, options)).ResponseAsync;
         await WaitUntilComputingAsync(runs);
 
