@@ -5,6 +5,7 @@ using TopicGroups.Benchmarks;
 //   gflops [n d k]      the assignment kernel's GFLOP/s per path, default 100000 384 100, plus the FMA peak
 //   fit [threads]       full fits: 20k x 384 k = 32 and 100k x 384 k = 100, 20 iterations, 1 restart
 //   seeding [threads]   the same fits with k-means++ on every row and on the seeding sample, 3 seeds each
+//   allocations FILE.npy k iterations seed [threads]   MB allocated by the pipeline and its heavier stages
 //   load [clients seconds [kill-after-seconds]]   N clients grouping and saving against the server process on
 //                       127.0.0.1 for a fixed time (default 8 clients, 60 s); with a third number the server is
 //                       killed then and restarted on the same SQLite file (docs/operations.md, "Load and faults")
@@ -72,6 +73,16 @@ if (args.Length > 0 && args[0] == "study")
     }
 
     QuickMeasurements.Study(matrix, int.Parse(args[2]), int.Parse(args[3]), ulong.Parse(args[4]), threads);
+    return 0;
+}
+
+if (args.Length > 0 && args[0] == "allocations")
+{
+    // allocations FILE.npy k iterations seed [threads]: bytes allocated by the pipeline and its heavier stages
+    var matrix = NpyMatrix.Load(args[1]);
+    TopicGroups.Core.Vectors.RowNormalisation.NormaliseInPlace(matrix);
+    int threads = args.Length > 5 ? int.Parse(args[5]) : Environment.ProcessorCount;
+    PipelineAllocations.Run(matrix, int.Parse(args[2]), int.Parse(args[3]), ulong.Parse(args[4]), threads);
     return 0;
 }
 

@@ -62,12 +62,16 @@ internal static class QualityAssessment
             }
         }
 
+        // One buffer for every group's rows to split (a fresh 1.5 MB copy per group at 100k × 384, k = 100, set off
+        // full collections of the large-object heap in a busy server).
+        int largestGroup = membersOfCluster.Length == 0 ? 0 : membersOfCluster.Max(members => members.Length);
+        float[] splitRows = new float[Math.Min(largestGroup, GroupQualityDefaults.SplitSampleSize) * d];
         var suggestions = new List<GroupSuggestion>[k];
         for (int a = 0; a < k; a++)
         {
             suggestions[a] = [];
             cancellationToken.ThrowIfCancellationRequested();
-            if (SplitInTwo(rows, membersOfCluster[a], cohesionOfCluster[a], a, options, workers, cancellationToken) is GroupSuggestion split)
+            if (SplitInTwo(rows, membersOfCluster[a], cohesionOfCluster[a], a, options, workers, cancellationToken, splitRows) is GroupSuggestion split)
             {
                 suggestions[a].Add(split);
             }
@@ -123,6 +127,7 @@ internal static class QualityAssessment
     /// <see cref="GroupQualityDefaults.SplitSampleSize"/> of them), returned as a suggestion when it passes all three
     /// tests of <see cref="GroupQualityDefaults"/>; null otherwise.
     /// </summary>
+    /// <param name="scratch">Holds the copied rows when long enough (at least min(members, SplitSampleSize) × d); null: a fresh array.</param>
     internal static GroupSuggestion? SplitInTwo(
         EmbeddingMatrix rows,
         int[] members,
@@ -130,7 +135,8 @@ internal static class QualityAssessment
         int cluster,
         GroupingOptions options,
         int workers,
-        CancellationToken cancellationToken)
+        CancellationToken cancellationToken,
+        float[]? scratch = null)
     {
         if (members.Length < Math.Max(GroupQualityDefaults.SplitMinimumGroupSize, 4))
         {
@@ -141,7 +147,9 @@ internal static class QualityAssessment
         var random = SplitMix64.ForStream(options.Seed, SplitStreamBase - cluster);
         int[] picked = Silhouette.SampleRows(members.Length, GroupQualityDefaults.SplitSampleSize, ref random);
         int m = picked.Length;
-        var part = EmbeddingMatrix.Allocate(m, d);
+        EmbeddingMatrix part = scratch is not null && scratch.Length >= m * d
+            ? EmbeddingMatrix.OverPrefix(scratch, m, d)
+            : EmbeddingMatrix.Allocate(m, d);
         double[] sum = new double[d];
         for (int r = 0; r < m; r++)
         {

@@ -23,7 +23,14 @@ public sealed class EmbeddingMatrix
         Dimensions = dimensions;
     }
 
-    /// <summary>Row-major storage, Rows × Dimensions.</summary>
+    private EmbeddingMatrix(float[] buffer, int rows, int dimensions, bool prefixOfBuffer)
+    {
+        Values = buffer;
+        Rows = rows;
+        Dimensions = dimensions;
+    }
+
+    /// <summary>Row-major storage, Rows × Dimensions (longer only for the Core's internal scratch, see OverPrefix).</summary>
     public float[] Values { get; }
 
     public int Rows { get; }
@@ -31,6 +38,25 @@ public sealed class EmbeddingMatrix
     public int Dimensions { get; }
 
     public Span<float> Row(int index) => Values.AsSpan(index * Dimensions, Dimensions);
+
+    /// <summary>
+    /// A matrix over the first rows × dimensions values of a scratch buffer that the Core reuses across calls (so
+    /// Values may be longer than Rows × Dimensions); every reader goes by Rows and Dimensions, never Values.Length.
+    /// </summary>
+    internal static EmbeddingMatrix OverPrefix(float[] buffer, int rows, int dimensions)
+    {
+        ArgumentNullException.ThrowIfNull(buffer);
+        ArgumentOutOfRangeException.ThrowIfNegative(rows);
+        ArgumentOutOfRangeException.ThrowIfNegativeOrZero(dimensions);
+        if ((long)rows * dimensions > buffer.Length)
+        {
+            throw new ArgumentException(
+                $"buffer has {buffer.Length} entries; rows × dimensions = {rows} × {dimensions} = {(long)rows * dimensions} do not fit.",
+                nameof(buffer));
+        }
+
+        return new EmbeddingMatrix(buffer, rows, dimensions, prefixOfBuffer: true);
+    }
 
     public static EmbeddingMatrix Allocate(int rows, int dimensions) =>
         new(new float[checked(rows * dimensions)], rows, dimensions);

@@ -193,6 +193,49 @@ public sealed class GroupQualityTests
         Assert.Equal("MaximumGroupCount", error.ParamName);
     }
 
+    [Fact]
+    public void SplitInTwo_ScratchReusedAcrossGroups_SameSuggestionsAsFreshCopies()
+    {
+        // Groups of three sizes, the scratch buffer reused from the largest down; it starts as NaN, so a split that
+        // read past its own rows (or a previous group's leftovers) would change or lose its suggestion.
+        EmbeddingMatrix rows = TestData.UnitClusters(seed: 35, n: 1200, d: 32, trueGroups: 4, noise: 0.08, out int[] theme);
+        int[][] groups =
+        [
+            Enumerable.Range(0, rows.Rows).Where(i => theme[i] is 0 or 1).ToArray(),
+            Enumerable.Range(0, rows.Rows).Where(i => theme[i] is 2 or 3).Take(500).ToArray(),
+            Enumerable.Range(0, rows.Rows).Where(i => theme[i] == 2).Take(120).ToArray(),
+        ];
+        var options = new GroupingOptions { GroupCount = 3, Seed = 7 };
+        float[] scratch = new float[groups[0].Length * rows.Dimensions];
+        Array.Fill(scratch, float.NaN);
+
+        IReadOnlyList<int> none = [];
+        int made = 0;
+        for (int g = 0; g < groups.Length; g++)
+        {
+            GroupSuggestion? fresh = QualityAssessment.SplitInTwo(rows, groups[g], 0.5, g, options, workers: 2, CancellationToken.None);
+            GroupSuggestion? reused = QualityAssessment.SplitInTwo(rows, groups[g], 0.5, g, options, workers: 2, CancellationToken.None, scratch);
+            Assert.Equal(fresh is null, reused is null);
+            if (fresh is not null)
+            {
+                made++;
+                Assert.Equal(fresh with { PartSizes = none }, reused! with { PartSizes = none });
+                Assert.Equal(fresh.PartSizes, reused.PartSizes);
+            }
+        }
+
+        Assert.True(made >= 2, $"{made} of the groups gave a suggestion; the check needs splits to compare");
+    }
+
+    [Fact]
+    public void OverPrefix_BufferTooShort_ThrowsNamingBuffer()
+    {
+        var error = Assert.Throws<ArgumentException>(() => EmbeddingMatrix.OverPrefix(new float[10], rows: 3, dimensions: 4));
+        Assert.Equal("buffer", error.ParamName);
+        EmbeddingMatrix view = EmbeddingMatrix.OverPrefix(new float[20], rows: 3, dimensions: 4);
+        Assert.Equal((3, 4), (view.Rows, view.Dimensions));
+    }
+
     private static GroupingInput Input(EmbeddingMatrix rows, int groupCount, int silhouetteSampleSize = 5_000, int maximumGroupCount = 0)
     {
         string[] ids = Enumerable.Range(0, rows.Rows).Select(i => $"doc-{i}").ToArray();
