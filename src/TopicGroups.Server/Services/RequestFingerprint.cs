@@ -28,6 +28,21 @@ internal sealed class RequestFingerprint : IDisposable
         message.WriteTo(_sink);
     }
 
+    /// <summary>
+    /// Adds a message whose one large bytes field the caller has emptied, then that field's bytes: the message as in
+    /// <see cref="Add(IMessage)"/>, then the block's length and the block hashed where it lies (re-encoding a packed
+    /// chunk only to hash it copied every byte once more). Every part carries its length, so different content
+    /// still gives a different sequence of hashed bytes.
+    /// </summary>
+    public void Add(IMessage messageWithoutBlock, ReadOnlySpan<byte> block)
+    {
+        Add(messageWithoutBlock);
+        Span<byte> length = stackalloc byte[8];
+        System.Buffers.Binary.BinaryPrimitives.WriteInt64LittleEndian(length, block.Length);
+        _hash.AppendData(length);
+        _hash.AppendData(block);
+    }
+
     /// <summary>Lower-case hex of the hash; the fingerprint cannot be added to afterwards.</summary>
     public string Finish() => Convert.ToHexStringLower(_hash.GetHashAndReset());
 

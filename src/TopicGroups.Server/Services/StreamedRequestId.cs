@@ -30,10 +30,20 @@ internal sealed class StreamedRequestId(string method) : IDisposable
 
         if (_fingerprint is not null)
         {
+            // The content without the id; the packed embeddings are hashed as received, not encoded again.
             string requestId = chunk.RequestId;
-            chunk.RequestId = string.Empty;   // the content without the id
-            _fingerprint.Add(chunk);
-            chunk.RequestId = requestId;
+            Google.Protobuf.ByteString packed = chunk.PackedEmbeddings;
+            chunk.RequestId = string.Empty;
+            chunk.PackedEmbeddings = Google.Protobuf.ByteString.Empty;
+            try
+            {
+                _fingerprint.Add(chunk, packed.Span);
+            }
+            finally
+            {
+                chunk.RequestId = requestId;
+                chunk.PackedEmbeddings = packed;
+            }
         }
     }
 

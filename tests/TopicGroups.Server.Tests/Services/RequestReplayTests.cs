@@ -313,6 +313,53 @@ public sealed class RequestReplayTests : IDisposable
         Assert.Contains("chunk 0 only", RpcAssert.Single(bad, "request_id").Description);
     }
 
+    /// <summary>One chunk of the small batch with its embeddings packed; <paramref name="changedValue"/> alters one float.</summary>
+    private static StreamGroupDocumentsRequest PackedChunk(string requestId, bool changedValue = false)
+    {
+        var (documents, _) = TestBatches.WellSeparated(groupCount: 3, perTheme: 10, dimensions: 16, seed: Seed);
+        float[] values = documents.SelectMany(document => document.Embedding).ToArray();
+        if (changedValue)
+        {
+            values[values.Length / 2] += 0.25f;
+        }
+
+        var chunk = new StreamGroupDocumentsRequest
+        {
+            ChunkIndex = 0,
+            RequestId = requestId,
+            Options = new GroupingOptions { GroupCount = 3, Save = true },
+            EmbeddingDimensions = 16,
+            DocumentCount = documents.Count,
+            PackedEmbeddings = Google.Protobuf.ByteString.CopyFrom(System.Runtime.InteropServices.MemoryMarshal.AsBytes(values.AsSpan())),
+        };
+        foreach (Document document in documents)
+        {
+            Document withoutEmbedding = document.Clone();
+            withoutEmbedding.Embedding.Clear();
+            chunk.Documents.Add(withoutEmbedding);
+        }
+
+        return chunk;
+    }
+
+    [Fact]
+    public async Task StreamGroupDocuments_PackedRetrySameBytes_KeptReply_OneValueChanged_InvalidArgument()
+    {
+        using var first = await SendAsync([PackedChunk("packed-retry-1")], untilComputing: false);
+        var (firstResult, _) = await ResultOfAsync(first);
+        using var retry = await SendAsync([PackedChunk("packed-retry-1")], untilComputing: false);
+        var (retriedResult, retriedProgress) = await ResultOfAsync(retry);
+
+        Assert.Equal(firstResult, retriedResult);
+        Assert.Equal(0, retriedProgress);
+
+        // Only the packed bytes differ: the fingerprint must still tell the calls apart.
+        using var changed = await SendAsync([PackedChunk("packed-retry-1", changedValue: true)], untilComputing: false);
+        RpcException mismatch = await RpcAssert.FailsAsync(StatusCode.InvalidArgument, () => ResultOfAsync(changed));
+        Assert.Contains("different documents, options or method", RpcAssert.Single(mismatch, "request_id").Description);
+        Assert.Single(await SavedAsync());
+    }
+
     [Fact]
     public async Task GroupDocuments_SameRequestIdAsAStreamedCall_InvalidArgument()
     {
