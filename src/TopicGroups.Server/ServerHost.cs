@@ -78,7 +78,14 @@ public static class ServerHost
             .PostConfigure(limits => limits.Validate())
             .ValidateOnStart();
 
-        services.AddGrpc();
+        // Interceptors in call order: the per-call log event and metrics first, so they also see the API-key check's
+        // refusals; then the key check, before everything that relies on the caller's tenant (the telemetry reads
+        // the tenant only after the call).
+        services.AddGrpc(grpc =>
+        {
+            grpc.Interceptors.Add<CallTelemetry>();
+            grpc.Interceptors.Add<ApiKeyInterceptor>();
+        });
         services.AddParseCheckedMethods();   // INVALID_ARGUMENT for requests the protobuf parser refuses (Validation/)
         services.AddAccess();   // API keys, tenants, TLS options (Security/)
 

@@ -1,4 +1,3 @@
-using Grpc.AspNetCore.Server;
 using Microsoft.AspNetCore.Server.Kestrel.Core;
 
 namespace TopicGroups.Server.Security;
@@ -15,16 +14,8 @@ internal static class AccessConfiguration
         services.AddOptions<TlsOptions>().BindConfiguration(TlsOptions.SectionName);
 
         // One instance for the server's life (gRPC takes registered interceptors from DI): the key table is built once.
+        // ServerHost puts it in the interceptor list.
         services.AddSingleton<ApiKeyInterceptor>();
-
-        // First of all interceptors, whoever registers theirs later: everything after it may rely on CallerTenant.
-        services.PostConfigure<GrpcServiceOptions>(grpc =>
-        {
-            grpc.Interceptors.Add<ApiKeyInterceptor>();
-            InterceptorRegistration registration = grpc.Interceptors[^1];
-            grpc.Interceptors.RemoveAt(grpc.Interceptors.Count - 1);
-            grpc.Interceptors.Insert(0, registration);
-        });
     }
 
     /// <summary>Turns on TLS for <paramref name="listen"/> when TopicGroups:Tls:CertificatePath is set.</summary>

@@ -1,4 +1,3 @@
-using Grpc.AspNetCore.Server;
 using Microsoft.Extensions.Configuration.Memory;
 using Microsoft.Extensions.Options;
 using OpenTelemetry.Metrics;
@@ -47,18 +46,9 @@ internal static class ServerOperations
             .AddCheck<GroupingHealthCheck>(GroupingHealthCheck.Name, tags: [LiveTag])
             .AddCheck<StoreHealthCheck>(StoreHealthCheck.Name);
 
-        // One log event and measurements per call; first in line so it also sees the API-key check's refusals. A
-        // PostConfigure registered after AddAccess's, so it runs later and takes position 0 (the key check is second,
-        // still before everything that relies on the caller's tenant; the telemetry reads the tenant only afterwards).
+        // One log event and measurements per call; ServerHost puts it first in the interceptor list.
         services.AddSingleton<ServerMetrics>();
         services.AddSingleton<CallTelemetry>();
-        services.PostConfigure<GrpcServiceOptions>(grpc =>
-        {
-            grpc.Interceptors.Add<CallTelemetry>();
-            var registration = grpc.Interceptors[^1];
-            grpc.Interceptors.RemoveAt(grpc.Interceptors.Count - 1);
-            grpc.Interceptors.Insert(0, registration);
-        });
 
         // Shutdown: the documented key HostOptions:ShutdownTimeout, and a grace period that fits inside it.
         services.Configure<HostOptions>(configuration.GetSection("HostOptions"));
