@@ -251,11 +251,7 @@ internal sealed class RequestValidator
 
         foreach (Proto.Document document in documents)
         {
-            int index = _ids.Count;
-            _ids.Add(document.Id);
-            _texts.Add(document.Text);
-            CheckId(document.Id, index);
-            CheckText(document.Text, index);
+            int index = AddIdAndText(document);
             CheckEmbedding(document.Embedding, index, chunkIndex, document.Text);
             if (_violations.Count >= MaxViolations)
             {
@@ -274,11 +270,7 @@ internal sealed class RequestValidator
         string where = chunkIndex is int chunk ? $" on chunk {chunk}" : string.Empty;
         foreach (Proto.Document document in documents)
         {
-            int index = _ids.Count;
-            _ids.Add(document.Id);
-            _texts.Add(document.Text);
-            CheckId(document.Id, index);
-            CheckText(document.Text, index);
+            int index = AddIdAndText(document);
             if (document.Embedding.Count > 0)
             {
                 AddViolation(
@@ -725,5 +717,16 @@ internal sealed class RequestValidator
                 + $"{_limits.MaxEmbeddingValues * sizeof(float) / (1024 * 1024)} MiB as float32: the most this server holds "
                 + "for one batch (TopicGroups:Limits:MaxEmbeddingValues). Split the batch into smaller ones.");
         }
+    }
+
+    // Records a document's id and text (in batch order) and checks both; returns its index in the whole batch.
+    private int AddIdAndText(Proto.Document document)
+    {
+        int index = _ids.Count;
+        _ids.Add(document.Id);
+        _texts.Add(document.Text);
+        CheckId(document.Id, index);
+        CheckText(document.Text, index);
+        return index;
     }
 }
