@@ -7,7 +7,7 @@ namespace TopicGroups.Core.Clustering;
 /// on its cosines and the centroids that were nearest at its last full scoring; per centroid, how far it moved.
 /// Shapes: n rows, k centroids of d dimensions. Allocated once per fit: 7 floats, 4 ints per row.
 /// </summary>
-internal sealed class AssignmentBounds
+internal sealed class AssignmentBounds : IDisposable
 {
     /// <summary>Centroids tracked by name per row: its most similar ones at its last full scoring.</summary>
     public const int NearCount = 4;
@@ -46,6 +46,8 @@ internal sealed class AssignmentBounds
             JumperScores[w] = new float[RowBlocks.BlockRows * MaxJumpers];
         }
     }
+
+    public void Dispose() => JumperPanel.Dispose();
 
     /// <summary>Prune every pass after the first, however far the centroids moved (tests; normally passes wait for small moves).</summary>
     public bool AlwaysPrune { get; set; }

@@ -5,8 +5,9 @@ namespace TopicGroups.Core.Clustering;
 /// <summary>
 /// Every buffer one fit needs, allocated once and reused by all restarts and iterations.
 /// Shapes: rows n × d (the caller's matrix, not copied), centroids k × d, per-row arrays of length n.
+/// Disposing gives the packed panels back to <see cref="PinnedBuffers"/> for the next fit.
 /// </summary>
-internal sealed class ClusteringWorkspace
+internal sealed class ClusteringWorkspace : IDisposable
 {
     public ClusteringWorkspace(EmbeddingMatrix unitRows, int groupCount, int workerCount, bool sampleForSeeding, int seedCandidates, bool pruning = true, int sampleRowsPerGroup = SeedingPool.SampleRowsPerGroup)
     {
@@ -88,6 +89,13 @@ internal sealed class ClusteringWorkspace
 
     /// <summary>The rows k-means++ draws from (all, or a per-restart sample of large inputs).</summary>
     public SeedingPool Seeding { get; }
+
+    public void Dispose()
+    {
+        Panel.Dispose();
+        Seeding.Dispose();
+        Bounds?.Dispose();
+    }
 
     public ReadOnlySpan<float> Row(int i) => Rows.AsSpan(i * D, D);
 

@@ -62,7 +62,7 @@ public static class NearestCentroid
         int k = unitCentroids.Length / d;
         int workers = maxDegreeOfParallelism == -1 ? Environment.ProcessorCount : maxDegreeOfParallelism;
         var blocks = new RowBlocks(n, workers);
-        var panel = new CentroidPanel(k, d);
+        using var panel = new CentroidPanel(k, d);
         panel.Pack(unitCentroids);
         float[][] scratch = new float[Math.Min(workers, blocks.Count)][];
         double[] blockSums = new double[blocks.Count];

@@ -15,7 +15,7 @@ namespace TopicGroups.Core.Clustering;
 /// k = 200, d = 768); below the sample size it is a packed copy of every row. (k-means++ on a sample is common practice without a single source; faiss likewise trains on at
 /// most 256 rows per centroid by default.)
 /// </summary>
-internal sealed class SeedingPool
+internal sealed class SeedingPool : IDisposable
 {
     /// <summary>Pool rows per group when sampling: 128 × k, never fewer than <see cref="MinimumSample"/>.</summary>
     public const int SampleRowsPerGroup = 128;
@@ -46,12 +46,15 @@ internal sealed class SeedingPool
             {
                 SourceRows[i] = i;
             }
-
-            Packed.Pack(allRows.AsSpan(0, N * d));
         }
 
         // Blocks of pool rows are whole panels of the packed pool: 256 rows = 4 panels of 64.
         Blocks = new RowBlocks(N, workerCount);
+        if (!IsSampled)
+        {
+            PackPool();
+        }
+
         MinDistance = new float[N];
         IsSeed = new bool[N];
         BlockWeight = new double[Blocks.Count];
@@ -135,6 +138,23 @@ internal sealed class SeedingPool
 
         permutation.AsSpan(0, N).CopyTo(SourceRows);
         Array.Sort(SourceRows);
-        Packed.PackRows(_allRows, SourceRows);
+        PackPool();
+    }
+
+    public void Dispose() => Packed.Dispose();
+
+    /// <summary>
+    /// Packs the pool rows block by block on every worker: besides the copy, a pool met for the first time in a
+    /// process touches fresh memory, and page faults are served in parallel (measured here: 64 MiB took 200 ms
+    /// from one thread, 110 ms from two).
+    /// </summary>
+    private void PackPool()
+    {
+        const int panelsPerBlock = RowBlocks.BlockRows / CentroidPanel.PanelColumns;
+        Blocks.ForEachBlock((block, _) =>
+        {
+            int firstPanel = block * panelsPerBlock;
+            Packed.PackRows(_allRows, SourceRows, firstPanel, Math.Min(panelsPerBlock, Packed.PanelCount - firstPanel));
+        });
     }
 }

@@ -39,19 +39,20 @@ public static class SphericalKMeans
         int d = unitRows.Dimensions;
         int k = options.GroupCount;
         int seedCandidates = options.ResolveSeedCandidates();
-        var ws = new ClusteringWorkspace(unitRows, k, options.ResolveWorkerCount(), !options.SeedOnEveryRow, seedCandidates, options.ResolvePruning(), options.SeedingSampleRowsPerGroup);
+        using var ws = new ClusteringWorkspace(unitRows, k, options.ResolveWorkerCount(), !options.SeedOnEveryRow, seedCandidates, options.ResolvePruning(), options.SeedingSampleRowsPerGroup);
         if (ws.Bounds is not null)
         {
             ws.Bounds.AlwaysPrune = options.ForcePruning;
         }
 
 
-        // The kept run, copied out of the workspace whenever a restart beats it.
-        float[] keptCentroids = new float[k * d];
-        int[] keptAssignments = new int[n];
-        float[] keptSimilarities = new float[n];
-        int[] keptRunnerUps = new int[n];
-        float[] keptRunnerUpSimilarities = new float[n];
+        // The kept run, copied out of the workspace whenever a restart beats it, except the last restart, whose
+        // arrays are handed over as they are (no later run writes them): one restart copies nothing.
+        float[] keptCentroids = [];
+        int[] keptAssignments = [];
+        float[] keptSimilarities = [];
+        int[] keptRunnerUps = [];
+        float[] keptRunnerUpSimilarities = [];
         IterationStats[] keptHistory = [];
         double keptObjective = double.NegativeInfinity;
         int keptRestart = -1;
@@ -96,11 +97,12 @@ public static class SphericalKMeans
                 keptRestart = restart;
                 keptConverged = converged;
                 keptHistory = history.ToArray();
-                ws.Centroids.CopyTo(keptCentroids, 0);
-                ws.Assignments.CopyTo(keptAssignments, 0);
-                ws.Similarities.CopyTo(keptSimilarities, 0);
-                ws.RunnerUpGroups.CopyTo(keptRunnerUps, 0);
-                ws.RunnerUpSimilarities.CopyTo(keptRunnerUpSimilarities, 0);
+                bool last = restart == options.RestartCount - 1;
+                keptCentroids = Keep(ws.Centroids, keptCentroids, last);
+                keptAssignments = Keep(ws.Assignments, keptAssignments, last);
+                keptSimilarities = Keep(ws.Similarities, keptSimilarities, last);
+                keptRunnerUps = Keep(ws.RunnerUpGroups, keptRunnerUps, last);
+                keptRunnerUpSimilarities = Keep(ws.RunnerUpSimilarities, keptRunnerUpSimilarities, last);
             }
         }
 
@@ -123,6 +125,23 @@ public static class SphericalKMeans
             SeedingTime = Stopwatch.GetElapsedTime(0, seedingTicks),
             TotalTime = Stopwatch.GetElapsedTime(fitStart),
         };
+    }
+
+    /// <summary>The workspace's array itself after the last restart, else a copy (into the earlier copy when there is one).</summary>
+    private static T[] Keep<T>(T[] workspace, T[] kept, bool last)
+    {
+        if (last)
+        {
+            return workspace;
+        }
+
+        if (kept.Length != workspace.Length)
+        {
+            kept = new T[workspace.Length];
+        }
+
+        workspace.CopyTo(kept, 0);
+        return kept;
     }
 
     /// <summary>

@@ -93,7 +93,7 @@ public static class GroupRouting
 
         int workers = maxDegreeOfParallelism == -1 ? Environment.ProcessorCount : maxDegreeOfParallelism;
         var blocks = new RowBlocks(n, workers);
-        var panel = new CentroidPanel(k, d);
+        using var panel = new CentroidPanel(k, d);
         panel.Pack(grouping.Centroids);
         float[][] scratch = new float[Math.Min(workers, blocks.Count)][];
         float[] values = rows.Values;

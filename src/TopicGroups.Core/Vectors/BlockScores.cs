@@ -33,7 +33,7 @@ internal static class BlockScores
             return;
         }
 
-        var panel = new CentroidPanel(k, d);
+        using var panel = new CentroidPanel(k, d);
         panel.Pack(centroids);
         Compute(rows, panel, scores, k);
     }

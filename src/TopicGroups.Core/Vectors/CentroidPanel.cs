@@ -6,8 +6,10 @@ namespace TopicGroups.Core.Vectors;
 /// side by side: Values[Offset(q) + p * Width(q) + c] = centroid (64q + c), coordinate p.
 /// A kernel then loads 16 centroids' coordinate p with one vector load and walks each panel
 /// front to back. Allocated once per fit (pinned, 64-byte aligned) and repacked each iteration.
+/// The storage is rented from <see cref="PinnedBuffers"/>: it holds stale values until packed, and
+/// <see cref="Dispose"/> gives it back (a panel is unusable afterwards).
 /// </summary>
-internal sealed class CentroidPanel
+internal sealed class CentroidPanel : IDisposable
 {
     /// <summary>Columns per panel: 64 × 384 dimensions × 4 bytes = 96 KiB, which stays in L2.</summary>
     public const int PanelColumns = 64;
@@ -17,9 +19,13 @@ internal sealed class CentroidPanel
 
     private const int AlignmentBytes = 64;
 
-    private readonly float[] _storage;
+    private readonly PinnedBuffers _buffers;
+    private float[]? _storage;
 
-    public CentroidPanel(int k, int d)
+    /// <param name="k">Columns (centroids).</param>
+    /// <param name="d">Dimensions.</param>
+    /// <param name="buffers">Where the storage is rented; the process's shared buffers unless given.</param>
+    public CentroidPanel(int k, int d, PinnedBuffers? buffers = null)
     {
         ArgumentOutOfRangeException.ThrowIfNegative(k);
         ArgumentOutOfRangeException.ThrowIfNegativeOrZero(d);
@@ -28,7 +34,8 @@ internal sealed class CentroidPanel
         PaddedK = (k + ColumnAlignment - 1) / ColumnAlignment * ColumnAlignment;
         PanelCount = (PaddedK + PanelColumns - 1) / PanelColumns;
         int length = checked(PaddedK * d);
-        _storage = GC.AllocateArray<float>(length + AlignmentBytes / sizeof(float), pinned: true);
+        _buffers = buffers ?? PinnedBuffers.Shared;
+        _storage = _buffers.Rent(length + AlignmentBytes / sizeof(float));
         unsafe
         {
             fixed (float* start = _storage)
@@ -50,8 +57,18 @@ internal sealed class CentroidPanel
 
     internal int StorageOffset { get; }
 
-    /// <summary>The packed values, PaddedK × d in panel order; padding columns are zero.</summary>
-    public Span<float> Values => _storage.AsSpan(StorageOffset, PaddedK * D);
+    /// <summary>The packed values, PaddedK × d in panel order; padding columns are zero once packed.</summary>
+    public Span<float> Values => (_storage ?? throw new ObjectDisposedException(nameof(CentroidPanel))).AsSpan(StorageOffset, PaddedK * D);
+
+    /// <summary>Gives the storage back for the next panel; safe to call twice.</summary>
+    public void Dispose()
+    {
+        float[]? storage = Interlocked.Exchange(ref _storage, null);
+        if (storage is not null)
+        {
+            _buffers.Return(storage);
+        }
+    }
 
     /// <summary>Columns in panel q: 16, 32, 48 or 64.</summary>
     public int Width(int panel) => Math.Min(PanelColumns, PaddedK - panel * PanelColumns);
@@ -60,7 +77,6 @@ internal sealed class CentroidPanel
     public int Offset(int panel) => panel * PanelColumns * D;
 
     /// <summary>Packs rows source[rowIndices[j]] (row-major, d values each) as columns j = 0 .. K − 1.</summary>
-    [System.Runtime.CompilerServices.MethodImpl(System.Runtime.CompilerServices.MethodImplOptions.AggressiveOptimization)]
     public void PackRows(ReadOnlySpan<float> source, ReadOnlySpan<int> rowIndices)
     {
         if (rowIndices.Length != K)
@@ -68,11 +84,30 @@ internal sealed class CentroidPanel
             throw new ArgumentException($"rowIndices has {rowIndices.Length} entries; {K} expected.", nameof(rowIndices));
         }
 
+        PackRows(source, rowIndices, 0, PanelCount);
+    }
+
+    /// <summary>
+    /// Like <see cref="PackRows(ReadOnlySpan{float}, ReadOnlySpan{int})"/> for the panels firstPanel ..
+    /// firstPanel + panelCount − 1 only, so that callers can fill a large panel from several threads (each
+    /// panel is written by exactly one call).
+    /// </summary>
+    [System.Runtime.CompilerServices.MethodImpl(System.Runtime.CompilerServices.MethodImplOptions.AggressiveOptimization)]
+    public void PackRows(ReadOnlySpan<float> source, ReadOnlySpan<int> rowIndices, int firstPanel, int panelCount)
+    {
+        if (rowIndices.Length != K)
+        {
+            throw new ArgumentException($"rowIndices has {rowIndices.Length} entries; {K} expected.", nameof(rowIndices));
+        }
+
+        ArgumentOutOfRangeException.ThrowIfNegative(firstPanel);
+        ArgumentOutOfRangeException.ThrowIfGreaterThan(firstPanel + panelCount, PanelCount);
+
         // Panel by panel, dimension by dimension: the writes run front to back and a panel's 64 source rows
         // (64 × d floats) stay in cache while their values are spread (writing row by row instead scatters every
         // value to its own cache line: the seeding sample draw at 100,000 × 384, k = 100 took 35 ms that way, 19–24 ms so).
         Span<float> values = Values;
-        for (int panel = 0; panel < PanelCount; panel++)
+        for (int panel = firstPanel; panel < firstPanel + panelCount; panel++)
         {
             int width = Width(panel);
             int firstColumn = panel * PanelColumns;
