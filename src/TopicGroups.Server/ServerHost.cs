@@ -102,6 +102,8 @@ public static class ServerHost
             .PostConfigure(admission => admission.Validate())
             .ValidateOnStart();
         services.AddSingleton<GroupingAdmission>();
+        services.AddSingleton(provider =>
+            new BatchArrayPool(provider.GetRequiredService<IOptions<GroupingAdmissionOptions>>().Value.KeptBatchArrayBytes));
         services.AddSingleton<GroupingRunner>();
         services.AddOptions<TextEmbeddingOptions>()
             .BindConfiguration(TextEmbeddingOptions.SectionName)

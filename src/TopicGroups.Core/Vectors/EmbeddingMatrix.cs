@@ -40,10 +40,11 @@ public sealed class EmbeddingMatrix
     public Span<float> Row(int index) => Values.AsSpan(index * Dimensions, Dimensions);
 
     /// <summary>
-    /// A matrix over the first rows × dimensions values of a scratch buffer that the Core reuses across calls (so
-    /// Values may be longer than Rows × Dimensions); every reader goes by Rows and Dimensions, never Values.Length.
+    /// A matrix over the first rows × dimensions values of a buffer reused across calls (the Core's scratch, the
+    /// server's pooled batch arrays), so Values may be longer than Rows × Dimensions; every reader goes by Rows and
+    /// Dimensions, never Values.Length, and the values past the prefix are never read.
     /// </summary>
-    internal static EmbeddingMatrix OverPrefix(float[] buffer, int rows, int dimensions)
+    public static EmbeddingMatrix OverPrefix(float[] buffer, int rows, int dimensions)
     {
         ArgumentNullException.ThrowIfNull(buffer);
         ArgumentOutOfRangeException.ThrowIfNegative(rows);

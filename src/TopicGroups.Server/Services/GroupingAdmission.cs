@@ -24,6 +24,14 @@ internal sealed class GroupingAdmissionOptions
     /// <value>The default is 4 GiB.</value>
     public long MaxGroupingMemoryBytes { get; set; } = 4L * 1024 * 1024 * 1024;
 
+    /// <summary>
+    /// Most bytes of finished batches' embedding arrays kept for the next batches (<see cref="Validation.BatchArrayPool"/>):
+    /// a kept array spares a batch of similar size the first touch of fresh memory (about 0.45 s at 100,000 × 384 on
+    /// a 2-core VM). Idle memory the process holds; 0 keeps none.
+    /// </summary>
+    /// <value>The default is 512 MiB: the arrays of two batches of 100,000 × 384, or one of 300,000 × 384.</value>
+    public long KeptBatchArrayBytes { get; set; } = 512L * 1024 * 1024;
+
     /// <summary>Throws at start-up when a setting is out of range, naming the key.</summary>
     public void Validate()
     {
@@ -37,6 +45,12 @@ internal sealed class GroupingAdmissionOptions
         {
             throw new InvalidOperationException(
                 $"Configuration {SectionName}:{nameof(AdmissionWaitMilliseconds)} is {AdmissionWaitMilliseconds}; use 0 (refuse at once when busy) or more.");
+        }
+
+        if (KeptBatchArrayBytes < 0)
+        {
+            throw new InvalidOperationException(
+                $"Configuration {SectionName}:{nameof(KeptBatchArrayBytes)} is {KeptBatchArrayBytes}; use 0 (keep none) or more.");
         }
 
         if (MaxGroupingMemoryBytes < 1)

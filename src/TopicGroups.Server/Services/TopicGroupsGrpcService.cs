@@ -12,7 +12,12 @@ namespace TopicGroups.Server.Services;
 
 /// <summary>Translates only: proto, then Validation, then Core (off the request thread), then Mapping, then proto.</summary>
 internal sealed class TopicGroupsGrpcService(
-    GroupingRunner runner, SavedGroupings saved, IOptions<TopicGroupsLimits> limits, TextEmbedding embedding, RequestReplay replay)
+    GroupingRunner runner,
+    SavedGroupings saved,
+    IOptions<TopicGroupsLimits> limits,
+    TextEmbedding embedding,
+    RequestReplay replay,
+    BatchArrayPool batchArrays)
     : Proto.TopicGroupsService.TopicGroupsServiceBase
 {
     private readonly TopicGroupsLimits _limits = limits.Value;
@@ -22,7 +27,11 @@ internal sealed class TopicGroupsGrpcService(
 
     private async Task<Proto.GroupDocumentsResponse> GroupOnceAsync(Proto.GroupDocumentsRequest request, ServerCallContext context, ReplayRun once)
     {
-        GroupingInput input = RequestValidator.ToInput(request, _limits, embedding, out TextsToEmbed? texts);   // INVALID_ARGUMENT / RESOURCE_EXHAUSTED
+        // The matrix's array goes back to the pool when this method ends: the grouping has stopped by then (it
+        // awaits the computing thread) and the reply is built; a failed or cancelled call ends here too.
+        using RequestValidator validator = RequestValidator.ForRequest(request, _limits, embedding, batchArrays);   // INVALID_ARGUMENT / RESOURCE_EXHAUSTED
+        GroupingInput input = validator.ToInput();
+        TextsToEmbed? texts = validator.TextsToEmbed;
         GroupingPlan plan = await saved.PrepareAsync(CallerTenant.Of(context), request.Options, input, context.CancellationToken);   // reference, save name
         plan = once.Apply(plan);
         GroupingResult result = await runner.RunAsync(plan.Input, progress: null, context, texts);
@@ -41,7 +50,7 @@ internal sealed class TopicGroupsGrpcService(
         ServerCallContext context)
     {
         CancellationToken cancellationToken = context.CancellationToken;
-        var validator = new RequestValidator(_limits, embedding);
+        using var validator = new RequestValidator(_limits, embedding, batchArrays);   // returns the matrix's array when the call ends
         Proto.GroupingOptions? options = null;
         using var requestId = new StreamedRequestId(nameof(StreamGroupDocuments));
         await foreach (Proto.StreamGroupDocumentsRequest chunk in requestStream.ReadAllAsync(cancellationToken))

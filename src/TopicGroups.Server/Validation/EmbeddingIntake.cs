@@ -10,6 +10,8 @@ namespace TopicGroups.Server.Validation;
 /// number of documents is known in advance (a unary request, or a stream whose chunk 0 gives document_count) the
 /// batch's one row-major float[] is allocated at once and every row is copied straight into it; otherwise rows
 /// go into segments of about <see cref="SegmentBytes"/> that <see cref="ToMatrix"/> joins once at the end.
+/// With a <see cref="BatchArrayPool"/>, the matrix's array is lent by the pool (it may be longer than the batch:
+/// the matrix then covers its first rows) and goes back with <see cref="Release"/>.
 /// </summary>
 internal sealed class EmbeddingIntake
 {
@@ -17,21 +19,28 @@ internal sealed class EmbeddingIntake
     private const int SegmentBytes = 4 * 1024 * 1024;
 
     private readonly int _dimensions;
-    private readonly float[]? _reserved;        // the whole matrix, when the row count was known
+    private readonly BatchArrayPool? _pool;
+    private float[]? _reserved;                  // the whole matrix, when the row count was known (may be longer)
+    private readonly int _reservedRows;
+    private float[]? _joined;                    // the matrix ToMatrix built by copying, when it came from the pool
     private readonly List<(float[] Values, int Rows)> _segments = [];
     private float[]? _segment;                   // the segment being filled (no reservation)
     private int _segmentRows;
 
     /// <param name="dimensions">Values per row.</param>
     /// <param name="expectedRows">Rows the batch will have, or 0 when not known.</param>
-    public EmbeddingIntake(int dimensions, int expectedRows)
+    /// <param name="pool">Lends the matrix's array; null allocates a new one.</param>
+    public EmbeddingIntake(int dimensions, int expectedRows, BatchArrayPool? pool = null)
     {
         ArgumentOutOfRangeException.ThrowIfNegativeOrZero(dimensions);
         ArgumentOutOfRangeException.ThrowIfNegative(expectedRows);
         _dimensions = dimensions;
+        _pool = pool;
         if (expectedRows > 0)
         {
-            _reserved = new float[checked(expectedRows * dimensions)];
+            int values = checked(expectedRows * dimensions);
+            _reserved = pool?.Rent(values) ?? new float[values];
+            _reservedRows = expectedRows;
         }
     }
 
@@ -39,7 +48,7 @@ internal sealed class EmbeddingIntake
     public int Rows { get; private set; }
 
     /// <summary>Rows the reservation holds; 0 without one.</summary>
-    public int ReservedRows => _reserved is null ? 0 : _reserved.Length / _dimensions;
+    public int ReservedRows => _reservedRows;
 
     /// <summary>Room for the next <paramref name="rows"/> rows, contiguous; the caller fills it.</summary>
     /// <exception cref="InvalidOperationException">More rows than reserved (the caller checks first).</exception>
@@ -96,13 +105,17 @@ internal sealed class EmbeddingIntake
     {
         if (_reserved is not null && Rows == ReservedRows)
         {
-            return new EmbeddingMatrix(_reserved, Rows, _dimensions);
+            return _reserved.Length == Rows * _dimensions
+                ? new EmbeddingMatrix(_reserved, Rows, _dimensions)
+                : EmbeddingMatrix.OverPrefix(_reserved, Rows, _dimensions);
         }
 
-        var values = new float[checked(Rows * _dimensions)];
+        int length = checked(Rows * _dimensions);
+        float[] values = _pool?.Rent(length) ?? new float[length];
+        _joined = _pool is null ? null : values;
         if (_reserved is not null)
         {
-            _reserved.AsSpan(0, values.Length).CopyTo(values);
+            _reserved.AsSpan(0, length).CopyTo(values);
         }
         else
         {
@@ -117,7 +130,32 @@ internal sealed class EmbeddingIntake
             _segments.Clear();
         }
 
-        return new EmbeddingMatrix(values, Rows, _dimensions);
+        return values.Length == length ? new EmbeddingMatrix(values, Rows, _dimensions) : EmbeddingMatrix.OverPrefix(values, Rows, _dimensions);
+    }
+
+    /// <summary>
+    /// Gives the pool back the arrays it lent (the reservation, the joined matrix). Call once nothing reads the
+    /// matrix any more: after the grouping stopped and its reply was built, or when the request failed. A second
+    /// call does nothing.
+    /// </summary>
+    public void Release()
+    {
+        if (_pool is null)
+        {
+            return;
+        }
+
+        if (_reserved is float[] reserved)
+        {
+            _reserved = null;
+            _pool.Return(reserved);
+        }
+
+        if (_joined is float[] joined)
+        {
+            _joined = null;
+            _pool.Return(joined);
+        }
     }
 
     /// <summary>

@@ -21,8 +21,10 @@ namespace TopicGroups.Server.Validation;
 /// texts (<see cref="TextEmbedding"/>): its matrix is then allocated empty and <see cref="TextsToEmbed"/> says
 /// what to fill it with. Bad input throws INVALID_ARGUMENT with up to <see cref="MaxViolations"/> field
 /// violations; input over a configured size limit throws RESOURCE_EXHAUSTED at once, before more of it is held.
+/// With a <see cref="BatchArrayPool"/> the matrix's array is lent by the pool: dispose the validator once nothing
+/// reads the matrix any more (the grouping stopped and its reply is built, or the call failed).
 /// </summary>
-internal sealed class RequestValidator
+internal sealed class RequestValidator : IDisposable
 {
     /// <summary>Violations collected before the request is rejected; enough to fix a batch in one round.</summary>
     public const int MaxViolations = 20;
@@ -41,6 +43,7 @@ internal sealed class RequestValidator
     private int _dimensionsSource = -1;     // index of that document, quoted in mismatch messages
     private int _textsOnlySource = -1;      // index of the first document, when it came without an embedding
     private readonly TextEmbedding? _embedding;
+    private readonly BatchArrayPool? _pool;
     private long _embeddingValues;
     private int _nextChunkIndex;
     private int _expectedDocuments;         // documents the batch will have when known in advance (unary, document_count); 0 otherwise
@@ -58,11 +61,13 @@ internal sealed class RequestValidator
 
     /// <param name="limits">Size limits.</param>
     /// <param name="embedding">The server's text embedding; null (or disabled) refuses documents without embeddings.</param>
-    public RequestValidator(TopicGroupsLimits limits, TextEmbedding? embedding = null)
+    /// <param name="pool">Lends the batch's matrix array until <see cref="Dispose"/>; null allocates a new one.</param>
+    public RequestValidator(TopicGroupsLimits limits, TextEmbedding? embedding = null, BatchArrayPool? pool = null)
     {
         ArgumentNullException.ThrowIfNull(limits);
         _limits = limits;
         _embedding = embedding;
+        _pool = pool;
     }
 
     /// <summary>Set by <see cref="ToInput()"/> when the documents came without embeddings: the texts the server must embed first.</summary>
@@ -79,16 +84,36 @@ internal sealed class RequestValidator
     public static GroupingInput ToInput(
         Proto.GroupDocumentsRequest request, TopicGroupsLimits limits, TextEmbedding? embedding, out TextsToEmbed? textsToEmbed)
     {
-        var validator = new RequestValidator(limits, embedding)
-        {
-            _options = request.Options,
-            _expectedDocuments = request.Documents.Count,
-        };
-        validator.AddDocuments(request.Documents, request.PackedEmbeddings, request.EmbeddingDimensions, chunkIndex: null);
+        var validator = ForRequest(request, limits, embedding, pool: null);
         GroupingInput input = validator.ToInput();
         textsToEmbed = validator.TextsToEmbed;
         return input;
     }
+
+    /// <summary>A validator that has checked a unary request's documents; <see cref="ToInput()"/> finishes the checks.</summary>
+    public static RequestValidator ForRequest(
+        Proto.GroupDocumentsRequest request, TopicGroupsLimits limits, TextEmbedding? embedding, BatchArrayPool? pool)
+    {
+        var validator = new RequestValidator(limits, embedding, pool)
+        {
+            _options = request.Options,
+            _expectedDocuments = request.Documents.Count,
+        };
+        try
+        {
+            validator.AddDocuments(request.Documents, request.PackedEmbeddings, request.EmbeddingDimensions, chunkIndex: null);
+        }
+        catch
+        {
+            validator.Dispose();
+            throw;
+        }
+
+        return validator;
+    }
+
+    /// <summary>Gives the pool back the batch's array. Call once nothing reads the input's matrix any more.</summary>
+    public void Dispose() => _intake?.Release();
 
     /// <summary>Checks one chunk of a stream: its index, its options (first chunk only) and its documents.</summary>
     public void AddChunk(Proto.StreamGroupDocumentsRequest chunk)
@@ -160,8 +185,7 @@ internal sealed class RequestValidator
         string[] texts = [.. _texts];
         _ids.Clear();
         _texts.Clear();
-        EmbeddingMatrix embeddings = _intake.ToMatrix();
-        _intake = null;
+        EmbeddingMatrix embeddings = _intake.ToMatrix();   // the intake stays: Dispose returns its array
 
         // The Core decides what it can normalise; its check is the last word should its rules grow.
         if (RowNormalisation.FindInvalidRow(embeddings, out string? reason) is int row)
@@ -380,7 +404,7 @@ internal sealed class RequestValidator
             // Reserve the whole matrix only when the batch is known to fit; otherwise the running total hits the limit
             // and names the document that crossed it, as without a reservation.
             int expected = (long)_expectedDocuments * _dimensions <= _limits.MaxEmbeddingValues ? _expectedDocuments : 0;
-            _intake = new EmbeddingIntake(_dimensions, expected);
+            _intake = new EmbeddingIntake(_dimensions, expected, _pool);
         }
 
         return _intake;
