@@ -69,6 +69,7 @@ internal sealed class TopicGroupsGrpcService(
         GroupingInput input = validator.ToInput();   // options are present once this returns
         Proto.GroupDocumentsResponse result = await replay.RunOnceAsync(
             requestId.Key(context), options, context, once => GroupStreamedOnceAsync(validator, input, options!, once, responseStream, context));
+        validator.Dispose();   // the grouping has stopped and its reply is built: the array can serve the next batch
         await responseStream.WriteAsync(new Proto.StreamGroupDocumentsResponse { Result = result }, cancellationToken);
     }
 

@@ -8,7 +8,9 @@ namespace TopicGroups.Server.Validation;
 /// reads it any more. Its values past the batch's rows are left over from an earlier batch and are never read:
 /// the matrix over it has the batch's own row count (EmbeddingMatrix.OverPrefix).
 /// </summary>
-internal sealed class BatchArrayPool
+/// <remarks>Public, unlike most of the server, so that the server tests (which see only public types) can check
+/// what it lends; it holds no transport types.</remarks>
+public sealed class BatchArrayPool
 {
     /// <summary>Arrays smaller than this (1 MiB) are neither kept nor lent: they are cheap to allocate.</summary>
     public const int MinKeptValues = 256 * 1024;
