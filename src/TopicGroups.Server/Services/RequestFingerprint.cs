@@ -1,30 +1,39 @@
-using System.Security.Cryptography;
+using System.IO.Hashing;
 using System.Text;
 using Google.Protobuf;
 
 namespace TopicGroups.Server.Services;
 
 /// <summary>
-/// SHA-256 over what a grouping call sent (method, options, documents), without its request id, so that a retry can
-/// be told apart from a different request that reuses the id. Messages are hashed as they are encoded, with a
-/// length before each, straight into the hash: the batch is not copied.
+/// A 128-bit hash (XXH3-128) of what a grouping call sent (method, options, documents), without its request id, so
+/// that a retry can be told apart from a different request that reuses the id within one tenant. Messages are
+/// hashed as they are encoded, with a length before each, straight into the hash: the batch is not copied.
 /// </summary>
-internal sealed class RequestFingerprint : IDisposable
+/// <remarks>
+/// Not a cryptographic hash, and it need not be one: the id is scoped to the caller's tenant, so only the caller
+/// could send colliding content under its own id, and would only get its own earlier reply. At 100,000 × 384
+/// (154 MB) it takes about 0.015 s against 0.19 s for SHA-256, which this replaced (on the receive path, measured
+/// on the 2-core VM). The value is prefixed with "xxh128:" so that hashes stored before the change (64 hex digits
+/// of SHA-256) are told apart.
+/// </remarks>
+internal sealed class RequestFingerprint
 {
-    private readonly IncrementalHash _hash = IncrementalHash.CreateHash(HashAlgorithmName.SHA256);
+    public const string Prefix = "xxh128:";
+
+    private readonly XxHash128 _hash = new();
     private readonly HashSink _sink;
 
     public RequestFingerprint(string method)
     {
         _sink = new HashSink(_hash);
-        _hash.AppendData(Encoding.UTF8.GetBytes(method + "\n"));
+        _hash.Append(Encoding.UTF8.GetBytes(method + "\n"));
     }
 
     public void Add(IMessage message)
     {
         Span<byte> length = stackalloc byte[4];
         System.Buffers.Binary.BinaryPrimitives.WriteInt32LittleEndian(length, message.CalculateSize());
-        _hash.AppendData(length);
+        _hash.Append(length);
         message.WriteTo(_sink);
     }
 
@@ -39,17 +48,21 @@ internal sealed class RequestFingerprint : IDisposable
         Add(messageWithoutBlock);
         Span<byte> length = stackalloc byte[8];
         System.Buffers.Binary.BinaryPrimitives.WriteInt64LittleEndian(length, block.Length);
-        _hash.AppendData(length);
-        _hash.AppendData(block);
+        _hash.Append(length);
+        _hash.Append(block);
     }
 
-    /// <summary>Lower-case hex of the hash; the fingerprint cannot be added to afterwards.</summary>
-    public string Finish() => Convert.ToHexStringLower(_hash.GetHashAndReset());
+    /// <summary>"xxh128:" and the lower-case hex of the hash; the fingerprint cannot be added to afterwards.</summary>
+    public string Finish()
+    {
+        string hash = Prefix + Convert.ToHexStringLower(_hash.GetCurrentHash());
+        _hash.Reset();
+        return hash;
+    }
 
-    public void Dispose() => _hash.Dispose();
 
     /// <summary>A write-only stream that feeds the hash.</summary>
-    private sealed class HashSink(IncrementalHash hash) : Stream
+    private sealed class HashSink(XxHash128 hash) : Stream
     {
         public override bool CanRead => false;
 
@@ -61,9 +74,9 @@ internal sealed class RequestFingerprint : IDisposable
 
         public override long Position { get => throw new NotSupportedException(); set => throw new NotSupportedException(); }
 
-        public override void Write(byte[] buffer, int offset, int count) => hash.AppendData(buffer, offset, count);
+        public override void Write(byte[] buffer, int offset, int count) => hash.Append(buffer.AsSpan(offset, count));
 
-        public override void Write(ReadOnlySpan<byte> buffer) => hash.AppendData(buffer);
+        public override void Write(ReadOnlySpan<byte> buffer) => hash.Append(buffer);
 
         public override void Flush()
         {

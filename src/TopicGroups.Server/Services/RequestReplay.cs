@@ -133,7 +133,7 @@ internal sealed class RequestReplay
         }
 
         CheckRequestId(requestId, "request_id");
-        using var fingerprint = new RequestFingerprint(nameof(Proto.TopicGroupsService.TopicGroupsServiceBase.GroupDocuments));
+        var fingerprint = new RequestFingerprint(nameof(Proto.TopicGroupsService.TopicGroupsServiceBase.GroupDocuments));
         request.RequestId = string.Empty;   // the content without the id
         fingerprint.Add(request);
         request.RequestId = requestId;

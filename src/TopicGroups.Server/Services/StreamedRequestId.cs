@@ -8,7 +8,7 @@ namespace TopicGroups.Server.Services;
 /// The request id of a streamed grouping: read from chunk 0 (later chunks must leave it empty), with a fingerprint
 /// of every chunk as it arrives. Chunks are hashed only when chunk 0 carries an id.
 /// </summary>
-internal sealed class StreamedRequestId(string method) : IDisposable
+internal sealed class StreamedRequestId(string method)
 {
     private RequestFingerprint? _fingerprint;
     private string _requestId = string.Empty;
@@ -50,6 +50,4 @@ internal sealed class StreamedRequestId(string method) : IDisposable
     /// <summary>Null when chunk 0 had no request id.</summary>
     public ReplayKey? Key(ServerCallContext context) =>
         _fingerprint is null ? null : RequestReplay.KeyOf(_requestId, "request_id", _fingerprint, context);
-
-    public void Dispose() => _fingerprint?.Dispose();
 }

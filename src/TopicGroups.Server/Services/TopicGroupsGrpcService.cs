@@ -52,7 +52,7 @@ internal sealed class TopicGroupsGrpcService(
         CancellationToken cancellationToken = context.CancellationToken;
         using var validator = new RequestValidator(_limits, embedding, batchArrays);   // returns the matrix's array when the call ends
         Proto.GroupingOptions? options = null;
-        using var requestId = new StreamedRequestId(nameof(StreamGroupDocuments));
+        var requestId = new StreamedRequestId(nameof(StreamGroupDocuments));
         await foreach (Proto.StreamGroupDocumentsRequest chunk in requestStream.ReadAllAsync(cancellationToken))
         {
             validator.AddChunk(chunk);
