@@ -43,7 +43,7 @@ public static class ServerHost
                 listen.UseConfiguredTls(builder.Configuration);   // TopicGroups:Tls (docs/operations.md, "Access")
             });
 
-            // Upload flow-control windows of several 512 KiB stream chunks, so a client keeps sending while the server
+            // Upload flow-control windows of many stream chunks (64 KiB by default), so a client keeps sending while the server
             // copies the previous chunk (Kestrel's defaults: 768 KiB per stream, 1 MiB per connection; docs/performance.md).
             kestrel.Limits.Http2.InitialStreamWindowSize = Http2StreamWindowBytes;
             kestrel.Limits.Http2.InitialConnectionWindowSize = Http2ConnectionWindowBytes;
@@ -103,7 +103,7 @@ public static class ServerHost
             .ValidateOnStart();
         services.AddSingleton<GroupingAdmission>();
         services.AddSingleton(provider =>
-            new BatchArrayPool(provider.GetRequiredService<IOptions<GroupingAdmissionOptions>>().Value.KeptBatchArrayBytes));
+            new BatchArrayPool(provider.GetRequiredService<IOptions<GroupingAdmissionOptions>>().Value.EffectiveKeptBatchArrayBytes));
         services.AddSingleton<GroupingRunner>();
         services.AddOptions<TextEmbeddingOptions>()
             .BindConfiguration(TextEmbeddingOptions.SectionName)

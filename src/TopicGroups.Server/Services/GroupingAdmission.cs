@@ -27,10 +27,15 @@ internal sealed class GroupingAdmissionOptions
     /// <summary>
     /// Most bytes of finished batches' embedding arrays kept for the next batches (<see cref="Validation.BatchArrayPool"/>):
     /// a kept array spares a batch of similar size the first touch of fresh memory (about 0.45 s at 100,000 × 384 on
-    /// a 2-core VM). Idle memory the process holds; 0 keeps none.
+    /// a 2-core VM). Idle memory the process holds, never more than MaxConcurrentGroupings × MaxGroupingMemoryBytes
+    /// (the memory the admission already allows; a larger setting is capped there); 0 keeps none.
     /// </summary>
     /// <value>The default is 512 MiB: the arrays of two batches of 100,000 × 384, or one of 300,000 × 384.</value>
     public long KeptBatchArrayBytes { get; set; } = 512L * 1024 * 1024;
+
+    /// <summary><see cref="KeptBatchArrayBytes"/> within the memory the admission allows for running groupings.</summary>
+    public long EffectiveKeptBatchArrayBytes =>
+        Math.Min(KeptBatchArrayBytes, MaxConcurrentGroupings * Math.Min(MaxGroupingMemoryBytes, long.MaxValue / MaxConcurrentGroupings));
 
     /// <summary>Throws at start-up when a setting is out of range, naming the key.</summary>
     public void Validate()

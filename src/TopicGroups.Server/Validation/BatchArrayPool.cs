@@ -7,6 +7,9 @@ namespace TopicGroups.Server.Validation;
 /// one batch at a time: <see cref="Rent"/> removes it from the pool, <see cref="Return"/> puts it back once nothing
 /// reads it any more. Its values past the batch's rows are left over from an earlier batch and are never read:
 /// the matrix over it has the batch's own row count (EmbeddingMatrix.OverPrefix).
+/// Kept arrays never add to what the running groupings need: a batch that finds none that fits gets a new array,
+/// and the pool lets go of kept arrays of at least that size (oldest first), so kept and lent arrays together hold
+/// no more than before the batch, or no more than the lent ones alone.
 /// </summary>
 /// <remarks>Public, unlike most of the server, so that the server tests (which see only public types) can check
 /// what it lends; it holds no transport types.</remarks>
@@ -56,7 +59,8 @@ public sealed class BatchArrayPool
 
     /// <summary>
     /// An array of at least <paramref name="values"/> entries that no one else holds until it is returned: the
-    /// smallest kept one that fits (and is at most twice the need), else a new one. Its contents are undefined.
+    /// smallest kept one that fits (and is at most twice the need), else a new one, for which the oldest kept arrays
+    /// are let go until at least as many bytes went. Its contents are undefined.
     /// </summary>
     public float[] Rent(int values)
     {
@@ -81,6 +85,13 @@ public sealed class BatchArrayPool
                     _kept.RemoveAt(best);
                     _keptBytes -= BytesOf(array);
                     return array;
+                }
+
+                for (long freed = 0; freed < (long)values * sizeof(float) && _kept.Count > 0;)
+                {
+                    freed += BytesOf(_kept[0]);
+                    _keptBytes -= BytesOf(_kept[0]);
+                    _kept.RemoveAt(0);
                 }
             }
         }

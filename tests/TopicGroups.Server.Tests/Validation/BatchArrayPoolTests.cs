@@ -37,17 +37,37 @@ public sealed class BatchArrayPoolTests
     }
 
     [Fact]
-    public void Rent_KeptArrayOverTwiceTheNeed_LendsANewArrayAndKeepsTheLargeOne()
+    public void Rent_KeptArraysOverTwiceTheNeed_LendsANewArrayAndLetsTheOldestKeptOneGo()
     {
         var pool = new BatchArrayPool(maxKeptBytes: 8 * Bytes);
-        float[] large = new float[3 * Values];
-        pool.Return(large);
+        float[] older = new float[3 * Values];
+        float[] newer = new float[3 * Values];
+        pool.Return(older);
+        pool.Return(newer);
 
         float[] lent = pool.Rent(Values);
 
-        Assert.NotSame(large, lent);
+        Assert.NotSame(older, lent);
+        Assert.NotSame(newer, lent);
         Assert.Equal(Values, lent.Length);
+        Assert.Equal((1, 3 * Bytes), (pool.KeptCount, pool.KeptBytes));   // the new array's bytes were let go first
+        Assert.Same(newer, pool.Rent(2 * Values));
+    }
+
+    [Fact]
+    public void Rent_NoKeptArrayFits_LetsGoOfKeptArraysOfAtLeastTheNewSize()
+    {
+        var pool = new BatchArrayPool(maxKeptBytes: 8 * Bytes);
+        pool.Return(new float[Values]);
+        pool.Return(new float[Values]);
+        pool.Return(new float[Values]);
+
+        float[] lent = pool.Rent(Values + 1);   // fits none: the two oldest kept arrays go (one alone is too few bytes)
+
+        Assert.Equal(Values + 1, lent.Length);
         Assert.Equal(1, pool.KeptCount);
+        pool.Rent(5 * Values);
+        Assert.Equal(0, pool.KeptCount);
     }
 
     [Fact]
