@@ -1,5 +1,6 @@
 using System.Net;
 using Grpc.AspNetCore.Server;
+using Microsoft.AspNetCore.Connections;
 using Microsoft.AspNetCore.Server.Kestrel.Core;
 using Microsoft.Extensions.Options;
 using TopicGroups.Core.Grouping;
@@ -48,6 +49,8 @@ public static class ServerHost
             kestrel.Limits.Http2.InitialStreamWindowSize = Http2StreamWindowBytes;
             kestrel.Limits.Http2.InitialConnectionWindowSize = Http2ConnectionWindowBytes;
         });
+        // Socket buffers of 64 KiB, not 4 KiB: a large upload then takes a few thousand receive calls, not tens of thousands.
+        builder.Services.AddSingleton<IMemoryPoolFactory<byte>, ReceiveBlockPoolFactory>();
         ConfigureServices(builder);
         var app = builder.Build();
         MapEndpoints(app);
