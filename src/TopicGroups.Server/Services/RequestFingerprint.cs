@@ -29,12 +29,33 @@ internal sealed class RequestFingerprint
         _hash.Append(Encoding.UTF8.GetBytes(method + "\n"));
     }
 
+    /// <summary>Messages up to this size (a streamed chunk without its packed block) are encoded into a pooled buffer.</summary>
+    private const int PooledEncodingBytes = 64 * 1024;
+
     public void Add(IMessage message)
     {
+        int size = message.CalculateSize();
         Span<byte> length = stackalloc byte[4];
-        System.Buffers.Binary.BinaryPrimitives.WriteInt32LittleEndian(length, message.CalculateSize());
+        System.Buffers.Binary.BinaryPrimitives.WriteInt32LittleEndian(length, size);
         _hash.Append(length);
-        message.WriteTo(_sink);
+        if (size > PooledEncodingBytes)
+        {
+            message.WriteTo(_sink);   // a large unary request: encoded in pieces straight into the hash
+            return;
+        }
+
+        // The same bytes as through the stream, without a CodedOutputStream and its buffer for every chunk.
+        byte[] buffer = System.Buffers.ArrayPool<byte>.Shared.Rent(size);
+        try
+        {
+            Span<byte> encoded = buffer.AsSpan(0, size);
+            message.WriteTo(encoded);
+            _hash.Append(encoded);
+        }
+        finally
+        {
+            System.Buffers.ArrayPool<byte>.Shared.Return(buffer);
+        }
     }
 
     /// <summary>
