@@ -19,6 +19,9 @@ internal abstract class PackingSource
     /// <summary>Encoded size of row <paramref name="index"/>'s Document without its embedding.</summary>
     public abstract int BareSize(int index);
 
+    /// <summary>Row <paramref name="index"/>'s document id.</summary>
+    public abstract string Id(int index);
+
     /// <summary>Row <paramref name="index"/>'s Document without its embedding (id and text).</summary>
     public abstract Document Bare(int index);
 
@@ -56,6 +59,8 @@ internal abstract class PackingSource
 
         public override int BareSize(int index) => documents[index].CalculateSize() - _embeddingFieldSize;
 
+        public override string Id(int index) => documents[index].Id;
+
         // Document has id, text and embedding (a test checks that no field was added); the first two are shared, not copied.
         public override Document Bare(int index) => new() { Id = documents[index].Id, Text = documents[index].Text };
 
@@ -82,6 +87,8 @@ internal abstract class PackingSource
             return (id.Length > 0 ? 1 + CodedOutputStream.ComputeStringSize(id) : 0)
                 + (text.Length > 0 ? 1 + CodedOutputStream.ComputeStringSize(text) : 0);
         }
+
+        public override string Id(int index) => batch.Ids[index];
 
         public override Document Bare(int index) => new() { Id = batch.Ids[index], Text = batch.Texts?[index] ?? string.Empty };
 

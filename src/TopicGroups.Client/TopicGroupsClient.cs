@@ -86,6 +86,7 @@ public sealed class TopicGroupsClient
 
         // One deadline for the whole call: retries share what is left of it.
         DateTime deadline = DateTime.UtcNow + _options.Timeout;
+        options = PackedPlacementReply.Request(options, _options.PackPlacements);
         int packedDimensions = _options.PackEmbeddings ? PackedEmbeddings.CommonDimensions(documents) : 0;
         if (packedDimensions > 0)
         {
@@ -93,20 +94,25 @@ public sealed class TopicGroupsClient
         }
 
         int[] sizes = EncodedSizes(documents, out long totalBytes);
+        GroupDocumentsResponse response;
         if (progress is null && totalBytes <= _options.StreamingThresholdBytes)
         {
             var request = new GroupDocumentsRequest { Options = options, RequestId = requestId };
             request.Documents.AddRange(documents);
-            return await _retry.ExecuteAsync(
+            response = await _retry.ExecuteAsync(
                 async token => await _client.GroupDocumentsAsync(request, deadline: deadline, cancellationToken: token),
                 cancellationToken);
         }
+        else
+        {
+            List<StreamGroupDocumentsRequest> chunks = Chunk(documents, sizes, options, _options.ChunkSizeBytes);
+            chunks[0].RequestId = requestId;   // every attempt re-sends these same chunks, from chunk 0
+            response = await _retry.ExecuteAsync(
+                async token => await StreamAsync(chunks, progress, deadline, token),
+                cancellationToken);
+        }
 
-        List<StreamGroupDocumentsRequest> chunks = Chunk(documents, sizes, options, _options.ChunkSizeBytes);
-        chunks[0].RequestId = requestId;   // every attempt re-sends these same chunks, from chunk 0
-        return await _retry.ExecuteAsync(
-            async token => await StreamAsync(chunks, progress, deadline, token),
-            cancellationToken);
+        return PackedPlacementReply.Expand(response, documents.Count, i => documents[i].Id);
     }
 
     /// <summary>
@@ -127,6 +133,7 @@ public sealed class TopicGroupsClient
         ArgumentNullException.ThrowIfNull(options);
         DateTime deadline = DateTime.UtcNow + _options.Timeout;
         string requestId = _options.AutomaticRequestIds ? Guid.NewGuid().ToString() : string.Empty;
+        options = PackedPlacementReply.Request(options, _options.PackPlacements);
         return await GroupPackedAsync(PackingSource.Of(batch), requestId, options, progress, deadline, cancellationToken);
     }
 
@@ -139,19 +146,24 @@ public sealed class TopicGroupsClient
         DateTime deadline,
         CancellationToken cancellationToken)
     {
+        GroupDocumentsResponse response;
         if (progress is null && PackedEmbeddings.EncodedSize(source) <= _options.StreamingThresholdBytes)
         {
             GroupDocumentsRequest request = PackedEmbeddings.Unary(source, options);
             request.RequestId = requestId;
-            return await _retry.ExecuteAsync(
+            response = await _retry.ExecuteAsync(
                 async token => await _client.GroupDocumentsAsync(request, deadline: deadline, cancellationToken: token),
                 cancellationToken);
         }
+        else
+        {
+            // Each attempt packs the chunks afresh while it sends them: the batch is never held twice.
+            response = await _retry.ExecuteAsync(
+                async token => await StreamAsync(PackedEmbeddings.Chunks(source, requestId, options, _options.ChunkSizeBytes), progress, deadline, token),
+                cancellationToken);
+        }
 
-        // Each attempt packs the chunks afresh while it sends them: the batch is never held twice.
-        return await _retry.ExecuteAsync(
-            async token => await StreamAsync(PackedEmbeddings.Chunks(source, requestId, options, _options.ChunkSizeBytes), progress, deadline, token),
-            cancellationToken);
+        return PackedPlacementReply.Expand(response, source.Count, source.Id);
     }
 
     /// <summary>The resource name of a saved grouping: "groupings/{id}".</summary>

@@ -84,6 +84,16 @@ public sealed class TopicGroupsClientOptions
     /// <value>The default is true.</value>
     public bool PackEmbeddings { get; set; } = true;
 
+    /// <summary>
+    /// Ask for the placements packed (GroupingOptions.packed_placements): the reply carries one column per placement
+    /// field instead of a message per document, which the server builds and both ends encode and decode faster. The
+    /// client turns the columns back into GroupDocumentsResponse.Documents, with the ids of the documents it sent,
+    /// so the reply looks the same either way; a server that predates packed placements answers per document, which
+    /// works too.
+    /// </summary>
+    /// <value>The default is true.</value>
+    public bool PackPlacements { get; set; } = true;
+
     internal TopicGroupsClientOptions Validated()
     {
         if (ApiKey is not null && ApiKeyHeader.Problem(ApiKey) is string problem)
@@ -139,6 +149,7 @@ public sealed class TopicGroupsClientOptions
             MaxResponseBytes = MaxResponseBytes,
             ApiKey = ApiKey,
             PackEmbeddings = PackEmbeddings,
+            PackPlacements = PackPlacements,
         };
     }
 }

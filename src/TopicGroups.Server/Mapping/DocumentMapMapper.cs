@@ -6,9 +6,24 @@ namespace TopicGroups.Server.Mapping;
 /// <summary>The Core's 2-D map into the reply: coordinates onto each placement, axes and centres into response.map.</summary>
 internal static class DocumentMapMapper
 {
-    /// <summary>Expects response.documents in the result's document order (as <see cref="ResponseMapper"/> writes them).</summary>
+    /// <summary>
+    /// Expects response.documents (or response.packed_documents) in the result's document order (as
+    /// <see cref="ResponseMapper"/> writes them).
+    /// </summary>
     public static void AddTo(Proto.GroupDocumentsResponse response, DocumentMap map)
     {
+        if (response.PackedDocuments is { } packed)
+        {
+            int n = map.Coordinates.Length / 2;
+            packed.MapX.Capacity = n;
+            packed.MapY.Capacity = n;
+            for (int i = 0; i < n; i++)
+            {
+                packed.MapX.Add(map.Coordinates[2 * i]);
+                packed.MapY.Add(map.Coordinates[2 * i + 1]);
+            }
+        }
+
         for (int i = 0; i < response.Documents.Count; i++)
         {
             response.Documents[i].MapX = map.Coordinates[2 * i];

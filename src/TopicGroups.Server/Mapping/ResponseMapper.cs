@@ -7,7 +7,9 @@ namespace TopicGroups.Server.Mapping;
 /// <summary>Core results and progress to proto messages. Copies values; computes nothing.</summary>
 internal static class ResponseMapper
 {
-    public static Proto.GroupDocumentsResponse ToProto(GroupingResult result)
+    /// <param name="result">The Core's result.</param>
+    /// <param name="packedPlacements">options.packed_placements: the placements go into packed_documents as columns instead of documents.</param>
+    public static Proto.GroupDocumentsResponse ToProto(GroupingResult result, bool packedPlacements = false)
     {
         var response = new Proto.GroupDocumentsResponse { Statistics = ToProto(result.Statistics) };
         response.Groups.Capacity = result.Groups.Count;
@@ -16,19 +18,26 @@ internal static class ResponseMapper
             response.Groups.Add(ToProto(group));
         }
 
-        response.Documents.Capacity = result.Documents.Count;
-        foreach (DocumentPlacement placement in result.Documents)
+        if (packedPlacements)
         {
-            response.Documents.Add(new Proto.DocumentPlacement
+            response.PackedDocuments = ToPacked(result.Documents);
+        }
+        else
+        {
+            response.Documents.Capacity = result.Documents.Count;
+            foreach (DocumentPlacement placement in result.Documents)
             {
-                DocumentId = placement.DocumentId,
-                GroupId = placement.GroupId,
-                Similarity = placement.Similarity,
-                Margin = placement.Margin,
-                RunnerUpGroupId = placement.RunnerUpGroupId,
-                IsOutlier = placement.IsOutlier,
-                RunnerUpSimilarity = placement.RunnerUpSimilarity,
-            });
+                response.Documents.Add(new Proto.DocumentPlacement
+                {
+                    DocumentId = placement.DocumentId,
+                    GroupId = placement.GroupId,
+                    Similarity = placement.Similarity,
+                    Margin = placement.Margin,
+                    RunnerUpGroupId = placement.RunnerUpGroupId,
+                    IsOutlier = placement.IsOutlier,
+                    RunnerUpSimilarity = placement.RunnerUpSimilarity,
+                });
+            }
         }
 
         if (result.GroupCountChoice is { } choice)
@@ -56,6 +65,31 @@ internal static class ResponseMapper
         }
 
         return response;
+    }
+
+    /// <summary>One column per placement field, in document order; no message per document and no ids.</summary>
+    private static Proto.PackedPlacements ToPacked(IReadOnlyList<DocumentPlacement> placements)
+    {
+        int n = placements.Count;
+        var packed = new Proto.PackedPlacements();
+        packed.GroupIds.Capacity = n;
+        packed.Similarities.Capacity = n;
+        packed.Margins.Capacity = n;
+        packed.RunnerUpGroupIds.Capacity = n;
+        packed.RunnerUpSimilarities.Capacity = n;
+        packed.IsOutliers.Capacity = n;
+        for (int i = 0; i < n; i++)
+        {
+            DocumentPlacement placement = placements[i];
+            packed.GroupIds.Add(placement.GroupId);
+            packed.Similarities.Add(placement.Similarity);
+            packed.Margins.Add(placement.Margin);
+            packed.RunnerUpGroupIds.Add(placement.RunnerUpGroupId);
+            packed.RunnerUpSimilarities.Add(placement.RunnerUpSimilarity);
+            packed.IsOutliers.Add(placement.IsOutlier);
+        }
+
+        return packed;
     }
 
     public static Proto.GroupingProgress ToProto(GroupingProgress progress) => new()

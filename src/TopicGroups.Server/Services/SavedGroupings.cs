@@ -27,6 +27,9 @@ internal sealed record GroupingPlan(
 
     /// <summary>SaveId was made by the server (options.save without save_as), so another may be drawn on a collision.</summary>
     public bool ServerMadeName { get; init; }
+
+    /// <summary>options.packed_placements: the reply carries the placements as columns (packed_documents).</summary>
+    public bool PackedPlacements { get; init; }
 }
 
 /// <summary>
@@ -131,6 +134,7 @@ internal sealed class SavedGroupings(IGroupingStore store, TimeProvider time, IO
         return new GroupingPlan(tenant, input, reference, minimum, options.WarmStart, saveId, options.ReplaceSaved)
         {
             ServerMadeName = saveId is not null && options.SaveAs.Length == 0,
+            PackedPlacements = options.PackedPlacements,
         };
     }
 
@@ -141,7 +145,7 @@ internal sealed class SavedGroupings(IGroupingStore store, TimeProvider time, IO
             ? null
             : Continuity.Apply(result, plan.Reference.Snapshot, plan.MinimumMatchSimilarity);
         GroupingResult final = continued?.Result ?? result;
-        Proto.GroupDocumentsResponse response = ResponseMapper.ToProto(final);
+        Proto.GroupDocumentsResponse response = ResponseMapper.ToProto(final, plan.PackedPlacements);
         if (continued is not null)
         {
             response.Changes = SavedGroupingMapper.ToProto(continued.Changes, GroupingNames.NameOf(plan.Reference!.Id), plan.WarmStart);

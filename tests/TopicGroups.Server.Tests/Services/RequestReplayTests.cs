@@ -373,4 +373,64 @@ public sealed class RequestReplayTests : IDisposable
 
         RpcAssert.Single(mismatch, "request_id");
     }
+
+    private static GroupDocumentsRequest Packed(GroupDocumentsRequest request)
+    {
+        request.Options.PackedPlacements = true;
+        return request;
+    }
+
+    [Fact]
+    public async Task GroupDocuments_RetryAskingPackedPlacements_KeptReplyStillPacked_FlagChangedIsAnotherRequest()
+    {
+        GroupDocumentsResponse first = await Client.GroupDocumentsAsync(Packed(SmallRequest("packed-reply-1")));
+        GroupDocumentsResponse retried = await Client.GroupDocumentsAsync(Packed(SmallRequest("packed-reply-1")));
+
+        Assert.Equal(first, retried);
+        Assert.Empty(retried.Documents);
+        Assert.Equal(30, retried.PackedDocuments.GroupIds.Count);
+
+        // The reply's shape is part of the request: the same id cannot be answered in the other shape.
+        RpcException mismatch = await RpcAssert.FailsAsync(StatusCode.InvalidArgument, () => Client.GroupDocumentsAsync(SmallRequest("packed-reply-1")).ResponseAsync);
+        RpcAssert.Single(mismatch, "request_id");
+        Assert.Single(await SavedAsync());
+    }
+
+    [Fact]
+    public async Task GroupDocuments_PackedRetryAfterServerRestart_GroupedAgainInPackedShapeNotSavedAgain()
+    {
+        GroupDocumentsResponse first = await Client.GroupDocumentsAsync(Packed(SmallRequest("packed-reply-2")));
+        _host.Dispose();
+        _host = new StoreTestHost(DatabasePath);
+
+        GroupDocumentsResponse retried = await Client.GroupDocumentsAsync(Packed(SmallRequest("packed-reply-2")));
+
+        Assert.Empty(retried.Documents);
+        Assert.Equal(first.PackedDocuments.GroupIds, retried.PackedDocuments.GroupIds);
+        Assert.Equal(first.SavedGroupingName, retried.SavedGroupingName);
+        Assert.Equal(first.SavedGroupingName, Assert.Single(await SavedAsync()).Name);
+    }
+
+    [Fact]
+    public async Task StreamGroupDocuments_RetryAskingPackedPlacements_KeptReplyStillPacked()
+    {
+        GroupDocumentsRequest request = Packed(SmallRequest("packed-reply-3"));
+        StreamGroupDocumentsRequest Chunk()
+        {
+            var chunk = new StreamGroupDocumentsRequest { ChunkIndex = 0, RequestId = request.RequestId, Options = request.Options };
+            chunk.Documents.AddRange(request.Documents);
+            return chunk;
+        }
+
+        using var first = await SendAsync([Chunk()], untilComputing: false);
+        var (firstResult, _) = await ResultOfAsync(first);
+        using var retry = await SendAsync([Chunk()], untilComputing: false);
+        var (retriedResult, retriedProgress) = await ResultOfAsync(retry);
+
+        Assert.Equal(firstResult, retriedResult);
+        Assert.Equal(0, retriedProgress);
+        Assert.Empty(retriedResult.Documents);
+        Assert.Equal(30, retriedResult.PackedDocuments.Similarities.Count);
+    }
 }
+
