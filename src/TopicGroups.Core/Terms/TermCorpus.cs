@@ -198,6 +198,13 @@ internal sealed class TermCorpus
             var keys = new List<long>();
             for (int c = 0; c < chunkCount; c++)
             {
+                // One partition walks every chunk's pairs (hundreds of milliseconds for long texts): look at the
+                // token between chunks, so a deadline stops it within one chunk's walk.
+                if (cancellationToken.IsCancellationRequested)
+                {
+                    return;
+                }
+
                 long[] keysOfChunk = keysOf[c];
                 int[] map = globalIdOf[c];
                 for (int local = 0; local < keysOfChunk.Length; local++)
