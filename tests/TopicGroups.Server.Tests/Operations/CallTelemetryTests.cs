@@ -167,8 +167,11 @@ public sealed class CallTelemetryTests
             StatusCode.ResourceExhausted, () => host.Client.GroupDocumentsAsync(Request(small, new GroupingOptions { GroupCount = 2 })).ResponseAsync);
         RpcException late = await Assert.ThrowsAsync<RpcException>(() => running);
 
-        // The in-memory transport may show the caller CANCELLED (its stream is reset); the server's own record is what counts.
-        Assert.True(late.StatusCode is StatusCode.DeadlineExceeded or StatusCode.Cancelled, late.Status.ToString());
+        // The in-memory transport may show the caller CANCELLED (its stream is reset), or, when the reset comes before
+        // the response started, INTERNAL "Error starting gRPC call" (seen in CI under load); the server's own record is
+        // what counts.
+        bool resetBeforeResponse = late.StatusCode == StatusCode.Internal && late.Status.Detail.Contains("HttpResetTestException", StringComparison.Ordinal);
+        Assert.True(late.StatusCode is StatusCode.DeadlineExceeded or StatusCode.Cancelled || resetBeforeResponse, late.Status.ToString());
         Assert.Single(host.Of("topicgroups.rejections", ("reason", "admission")));
         await WaitUntil(() => host.Of("topicgroups.rejections", ("reason", "deadline")).Count == 1, () => "no deadline rejection was counted: " + string.Join(" | ", host.CallEvents().Select(e => e.Message)) + " active " + string.Join(",", host.Of("topicgroups.grouping.active_runs").Select(m => m.Value)));
         Assert.Single(host.Of("topicgroups.rejections", ("reason", "deadline")));

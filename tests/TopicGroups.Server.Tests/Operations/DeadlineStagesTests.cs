@@ -54,18 +54,38 @@ public sealed class DeadlineStagesTests(ITestOutputHelper output) : IDisposable
         await RunAsync(client, chunks, deadline: null, []);
         var timeline = new List<(GroupingStage Stage, double Seconds)>();
         double total = await RunAsync(client, chunks, deadline: null, timeline);
-        (double from, double to) = StageWindow(scenario, timeline, total);
         // A third of the way in, not half: a later run can be much faster than the timed one (it finds buffers the
-        // earlier runs left for reuse, and misses their full collections), and at half way the deadline run of the
-        // terms scenario sometimes finished first (terms took 2.8 s in the timed run, under 1.4 s in the next).
-        double deadlineSeconds = from + (to - from) / 3;
-        output.WriteLine($"{scenario} timeline: {string.Join(" ", timeline.GroupBy(e => e.Stage).Select(g => $"{g.Key}@{g.First().Seconds:F2}-{g.Last().Seconds:F2}"))}");
-        long baseline = GC.GetTotalMemory(forceFullCollection: true);   // the test's own copy of the batch included
-
-        var stopwatch = Stopwatch.StartNew();
+        // earlier runs left for reuse, misses their full collections, or no longer shares the cores with other test
+        // assemblies). A run that still finishes before its deadline is a timing of its own: the next attempt places
+        // the deadline by it (at most three attempts).
+        double from = 0, to = 0, deadlineSeconds = 0;
+        long baseline = 0;
+        Stopwatch stopwatch = new();
         var seen = new List<(GroupingStage Stage, double Seconds)>();
-        RpcException error = await Assert.ThrowsAsync<RpcException>(() => RunAsync(client, chunks, DateTime.UtcNow.AddSeconds(deadlineSeconds), seen));
+        RpcException? error = null;
+        for (int attempt = 1; error is null; attempt++)
+        {
+            (from, to) = StageWindow(scenario, timeline, total);
+            deadlineSeconds = from + (to - from) / 3;
+            output.WriteLine($"{scenario} timeline: {string.Join(" ", timeline.GroupBy(e => e.Stage).Select(g => $"{g.Key}@{g.First().Seconds:F2}-{g.Last().Seconds:F2}"))}");
+            baseline = GC.GetTotalMemory(forceFullCollection: true);   // the test's own copy of the batch included
+
+            stopwatch.Restart();
+            seen = [];
+            try
+            {
+                double finished = await RunAsync(client, chunks, DateTime.UtcNow.AddSeconds(deadlineSeconds), seen);
+                Assert.True(attempt < 3, $"attempt {attempt} finished in {finished:F2} s, before its deadline of {deadlineSeconds:F2} s");
+                (timeline, total) = (seen, finished);
+            }
+            catch (RpcException e)
+            {
+                error = e;
+            }
+        }
+
         TimeSpan answered = stopwatch.Elapsed;
+        ArgumentNullException.ThrowIfNull(error);
         long managedAtAnswer = GC.GetTotalMemory(forceFullCollection: false);
 
         while (runs.Count > 0 && stopwatch.Elapsed < TimeSpan.FromSeconds(deadlineSeconds + 30))
