@@ -30,7 +30,7 @@ public sealed class EmbeddingMatrix
         Dimensions = dimensions;
     }
 
-    /// <summary>Row-major storage, Rows × Dimensions (longer only for the Core's internal scratch, see OverPrefix).</summary>
+    /// <summary>Row-major storage, Rows × Dimensions (longer only over a reused buffer, see OverPrefix).</summary>
     public float[] Values { get; }
 
     public int Rows { get; }

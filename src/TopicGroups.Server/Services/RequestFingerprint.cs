@@ -20,6 +20,9 @@ internal sealed class RequestFingerprint
 {
     public const string Prefix = "xxh128:";
 
+    /// <summary>Messages up to this size (a streamed chunk without its packed block) are encoded into a pooled buffer.</summary>
+    private const int PooledEncodingBytes = 64 * 1024;
+
     private readonly XxHash128 _hash = new();
     private readonly HashSink _sink;
 
@@ -28,9 +31,6 @@ internal sealed class RequestFingerprint
         _sink = new HashSink(_hash);
         _hash.Append(Encoding.UTF8.GetBytes(method + "\n"));
     }
-
-    /// <summary>Messages up to this size (a streamed chunk without its packed block) are encoded into a pooled buffer.</summary>
-    private const int PooledEncodingBytes = 64 * 1024;
 
     public void Add(IMessage message)
     {
@@ -80,7 +80,6 @@ internal sealed class RequestFingerprint
         _hash.Reset();
         return hash;
     }
-
 
     /// <summary>A write-only stream that feeds the hash.</summary>
     private sealed class HashSink(XxHash128 hash) : Stream

@@ -105,9 +105,7 @@ internal sealed class EmbeddingIntake
     {
         if (_reserved is not null && Rows == ReservedRows)
         {
-            return _reserved.Length == Rows * _dimensions
-                ? new EmbeddingMatrix(_reserved, Rows, _dimensions)
-                : EmbeddingMatrix.OverPrefix(_reserved, Rows, _dimensions);
+            return EmbeddingMatrix.OverPrefix(_reserved, Rows, _dimensions);   // a lent array may be longer
         }
 
         int length = checked(Rows * _dimensions);
@@ -130,7 +128,7 @@ internal sealed class EmbeddingIntake
             _segments.Clear();
         }
 
-        return values.Length == length ? new EmbeddingMatrix(values, Rows, _dimensions) : EmbeddingMatrix.OverPrefix(values, Rows, _dimensions);
+        return EmbeddingMatrix.OverPrefix(values, Rows, _dimensions);
     }
 
     /// <summary>
