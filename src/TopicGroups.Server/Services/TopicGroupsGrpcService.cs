@@ -1,3 +1,4 @@
+using System.Diagnostics;
 using Google.Protobuf.WellKnownTypes;
 using Grpc.Core;
 using Microsoft.Extensions.Options;
@@ -20,6 +21,16 @@ internal sealed class TopicGroupsGrpcService(
     BatchArrayPool batchArrays)
     : Proto.TopicGroupsService.TopicGroupsServiceBase
 {
+    /// <summary>
+    /// A streamed batch gets one receiving event per chunk, but an event is flushed to the socket only when the last
+    /// flush is at least this old; the others wait in the response buffer for the next flush (a buffer hint). A flush
+    /// per 64 KiB chunk cost a send and a wake-up of the client's reader each: at 100,000 × 384 about 50 ms of the
+    /// upload's 260 ms (medians of 5 interleaved runs of `bench --through-service`).
+    /// </summary>
+    private static readonly TimeSpan ReceiptFlushInterval = TimeSpan.FromMilliseconds(100);
+
+    private static readonly WriteOptions BufferedWrite = new(WriteFlags.BufferHint);
+
     private readonly TopicGroupsLimits _limits = limits.Value;
 
     public override Task<Proto.GroupDocumentsResponse> GroupDocuments(Proto.GroupDocumentsRequest request, ServerCallContext context) =>
@@ -53,6 +64,7 @@ internal sealed class TopicGroupsGrpcService(
         using var validator = new RequestValidator(_limits, embedding, batchArrays);   // returns the matrix's array when the call ends
         Proto.GroupingOptions? options = null;
         var requestId = new StreamedRequestId(nameof(StreamGroupDocuments));
+        long lastFlush = 0;
         await foreach (Proto.StreamGroupDocumentsRequest chunk in requestStream.ReadAllAsync(cancellationToken))
         {
             validator.AddChunk(chunk);
@@ -63,8 +75,13 @@ internal sealed class TopicGroupsGrpcService(
                 Stage = Proto.GroupingStage.Receiving,
                 DocumentsReceived = validator.DocumentCount,
             };
+            bool flush = lastFlush == 0 || Stopwatch.GetElapsedTime(lastFlush) >= ReceiptFlushInterval;
+            responseStream.WriteOptions = flush ? null : BufferedWrite;
             await responseStream.WriteAsync(new Proto.StreamGroupDocumentsResponse { Progress = received }, cancellationToken);
+            lastFlush = flush ? Stopwatch.GetTimestamp() : lastFlush;
         }
+
+        responseStream.WriteOptions = null;   // the grouping's events and the result go out at once
 
         GroupingInput input = validator.ToInput();   // options are present once this returns
         Proto.GroupDocumentsResponse result = await replay.RunOnceAsync(

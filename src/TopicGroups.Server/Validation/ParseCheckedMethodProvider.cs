@@ -105,7 +105,9 @@ internal sealed class ParseCheckedMethodProvider : IServiceMethodProvider<TopicG
 
     /// <summary>
     /// Passes a request stream through, counting the elements of each top-level repeated field (documents) in the
-    /// chunks read so far, so a chunk the parser refuses is reported with indexes in the whole batch.
+    /// chunks read so far, so a chunk the parser refuses is reported with indexes in the whole batch. Asking for the
+    /// next chunk releases the previous one's pooled packed_embeddings (<see cref="PooledPackedField"/>): handlers
+    /// copy what they keep of a chunk before they read on.
     /// </summary>
     private sealed class ChunkCountingReader<TRequest>(IAsyncStreamReader<TRequest> requests) : IAsyncStreamReader<TRequest>
         where TRequest : class
@@ -120,6 +122,11 @@ internal sealed class ParseCheckedMethodProvider : IServiceMethodProvider<TopicG
 
         public async Task<bool> MoveNext(CancellationToken cancellationToken)
         {
+            if (_chunks > 0)
+            {
+                PooledPackedField.Release((IMessage)Current);
+            }
+
             bool moved;
             try
             {

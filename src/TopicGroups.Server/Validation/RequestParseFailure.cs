@@ -72,11 +72,16 @@ internal static class ParseCheckedMarshaller
         where T : class
     {
         Func<DeserializationContext, T> parse = generated.ContextualDeserializer;
+        // Only streamed chunks borrow: their reader releases each one when the next is asked for (see
+        // PooledPackedField); a unary request would hold its array until the handler ends.
+        FieldDescriptor? pooled = failLater ? null : PooledPackedField.FieldOf(descriptor);
         return Marshallers.Create(generated.ContextualSerializer, context =>
         {
             try
             {
-                return parse(context);
+                return pooled is not null && PooledPackedField.TryParse(context.PayloadAsReadOnlySequence(), descriptor, pooled, out IMessage? message)
+                    ? (T)message
+                    : parse(context);
             }
             catch (Exception exception) when (exception is InvalidProtocolBufferException or DecoderFallbackException)
             {

@@ -94,11 +94,8 @@ internal sealed class RequestValidator : IDisposable
     public static RequestValidator ForRequest(
         Proto.GroupDocumentsRequest request, TopicGroupsLimits limits, TextEmbedding? embedding, BatchArrayPool? pool)
     {
-        var validator = new RequestValidator(limits, embedding, pool)
-        {
-            _options = request.Options,
-            _expectedDocuments = request.Documents.Count,
-        };
+        var validator = new RequestValidator(limits, embedding, pool) { _options = request.Options };
+        validator.Expect(request.Documents.Count);
         try
         {
             validator.AddDocuments(request.Documents, request.PackedEmbeddings, request.EmbeddingDimensions, chunkIndex: null);
@@ -235,9 +232,21 @@ internal sealed class RequestValidator : IDisposable
         }
         else if (declared > 0)
         {
-            _expectedDocuments = declared;
+            Expect(declared);
             _expectedFromChunk0 = true;
         }
+    }
+
+    /// <summary>
+    /// Notes the batch's size, known in advance, and sizes the per-document lists and the id index once: grown step
+    /// by step, they would copy themselves and touch fresh memory at every step.
+    /// </summary>
+    private void Expect(int documents)
+    {
+        _expectedDocuments = documents;
+        _ids.EnsureCapacity(documents);
+        _texts.EnsureCapacity(documents);
+        _indexById.EnsureCapacity(documents);
     }
 
     private void AddDocuments(RepeatedField<Proto.Document> documents, ByteString packed, int packedDimensions, int? chunkIndex)

@@ -115,6 +115,27 @@ public sealed class PackedEmbeddingsTests(TestHost host) : IClassFixture<TestHos
     }
 
     [Fact]
+    public async Task StreamGroupDocuments_LargePackedChunks_SameGroupsAsUnary()
+    {
+        // 40 KiB of embeddings per chunk: the server parses each into a pooled array and reuses it for the next.
+        const int dimensions = 256;
+        List<Document> documents = TestBatches.WellSeparated(3, perTheme: 40, dimensions, seed: 43).Documents;
+        var options = new GroupingOptions { GroupCount = 3, Seed = 5 };
+        var unary = new GroupDocumentsRequest { Options = options };
+        unary.Documents.AddRange(documents);
+
+        GroupDocumentsResponse expected = await host.Client.GroupDocumentsAsync(unary);
+        GroupDocumentsResponse streamed = await StreamAsync(
+            PackedChunk(0, documents.Take(40), options, dimensions),
+            PackedChunk(1, documents.Skip(40).Take(40), dimensions: dimensions),
+            PackedChunk(2, documents.Skip(80), dimensions: dimensions));
+
+        Assert.Equal(documents.Select(d => d.Id), streamed.Documents.Select(p => p.DocumentId));
+        Assert.Equal(expected.Documents.Select(p => p.GroupId), streamed.Documents.Select(p => p.GroupId));
+        Assert.Equal(expected.Documents.Select(p => p.Similarity), streamed.Documents.Select(p => p.Similarity));
+    }
+
+    [Fact]
     public async Task GroupDocuments_PackedUnary_SameGroupsAsPerDocument()
     {
         List<Document> documents = Batch();
