@@ -57,7 +57,12 @@ public sealed class PackedEmbeddingsClientTests(TestHost host) : IClassFixture<T
         });
         Assert.Equal(documents.Select(d => d.Id), chunks.SelectMany(c => c.Documents).Select(d => d.Id));
         Assert.Equal(documents.Select(d => d.Text), chunks.SelectMany(c => c.Documents).Select(d => d.Text));
-        Assert.All(perDocumentSent.Chunks, c => Assert.True(c.PackedEmbeddings.IsEmpty && c.Documents.All(d => d.Embedding.Count == 96)));
+        Assert.All(perDocumentSent.Chunks, c =>
+        {
+            Assert.True(c.PackedEmbeddings.IsEmpty && c.Documents.All(d => d.Embedding.Count == 96));
+            Assert.True(c.CalculateSize() <= 64 * 1024, $"chunk {c.ChunkIndex} has {c.CalculateSize()} bytes");
+        });
+        Assert.True(perDocumentSent.Chunks.Count() >= 8, $"{perDocumentSent.Chunks.Count()} per-document chunks");
 
         Assert.Equal(fromPerDocument.Documents, fromPacked.Documents);
         Assert.Equal(fromPerDocument.Groups, fromPacked.Groups);
