@@ -76,7 +76,7 @@ public sealed class TopicGroupsClientTests(TestHost host) : IClassFixture<TestHo
         int[] received = progress.Reports.Where(p => p.Stage == GroupingStage.Receiving).Select(p => p.DocumentsReceived).ToArray();
         Assert.InRange(received[0], 1, 399);     // chunk 0's count comes at once: the batch is several chunks
         Assert.Equal(400, received[^1]);         // and the whole batch's count after the last
-        Assert.Equal(received.Order(), received);
+        Assert.Equal(received.Distinct().Order(), received);   // rising, none twice
 
         var stages = progress.Reports.Select(p => p.Stage).ToList();
         Assert.True(stages.LastIndexOf(GroupingStage.Receiving) < stages.IndexOf(GroupingStage.Seeding), string.Join(", ", stages));

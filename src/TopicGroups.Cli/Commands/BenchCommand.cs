@@ -350,8 +350,8 @@ internal static class BenchCommand
                 fields["in_process_page_faults"] = inProcessFaults;
 
                 // Methods the runtime compiled during each timed part (on a background thread, beside the work): code
-                // still warming up. At 100k × 384 a second round still compiles 100-300 on the service path, 40-100 in
-                // process (tiered compilation promotes a method after 30 calls; per-request code gets there slowly).
+                // still warming up. At 100k × 384 the second round still compiles about 100-130 on the service path and
+                // 10-60 in process (tiered compilation promotes a method after 30 calls; per-request code gets there slowly).
                 fields["end_to_end_jit_methods"] = endToEndJit;
                 fields["in_process_jit_methods"] = inProcessJit;
             }

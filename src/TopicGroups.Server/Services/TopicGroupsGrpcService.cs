@@ -149,4 +149,3 @@ internal sealed class TopicGroupsGrpcService(
         ServerCallContext context) =>
         saved.StreamRouteAsync(CallerTenant.Of(context), requestStream, responseStream, context.CancellationToken);
 }
-

@@ -17,6 +17,9 @@ namespace TopicGroups.Server.Tests.Operations;
 [Collection(TimingSensitiveCollection.Name)]
 public sealed class DeadlineStagesTests(ITestOutputHelper output) : IDisposable
 {
+    /// <summary>Managed memory a cancelled run may leave above the level before it: buffers kept for reuse, not its batch.</summary>
+    private const long RetainedLimit = 32L << 20;
+
     private readonly string _folder = Directory.CreateTempSubdirectory("topicgroups-deadline-").FullName;
 
     public void Dispose() => Directory.Delete(_folder, recursive: true);
@@ -94,7 +97,15 @@ public sealed class DeadlineStagesTests(ITestOutputHelper output) : IDisposable
         }
 
         TimeSpan stoppedAfterDeadline = stopwatch.Elapsed - TimeSpan.FromSeconds(deadlineSeconds);
+        // The computation has stopped, but the call's handler may still be unwinding, its batch still referenced: in 1
+        // of 8 runs the first measure was about the texts' 88 MiB above the baseline and back at it 0.5 s later.
         long after = GC.GetTotalMemory(forceFullCollection: true);
+        for (var settling = Stopwatch.StartNew(); after >= baseline + RetainedLimit && settling.Elapsed < TimeSpan.FromSeconds(5);)
+        {
+            await Task.Delay(100);
+            after = GC.GetTotalMemory(forceFullCollection: true);
+        }
+
         output.WriteLine(
             $"{scenario}: stage window {from:F2}-{to:F2} s of {total:F2} s uncancelled; deadline {deadlineSeconds:F2} s; {error.StatusCode} at "
             + $"{answered.TotalSeconds:F2} s, last stage seen {(seen.Count > 0 ? seen[^1].Stage : GroupingStage.Unspecified)}; computation stopped "
@@ -104,7 +115,7 @@ public sealed class DeadlineStagesTests(ITestOutputHelper output) : IDisposable
         Assert.Equal(StatusCode.DeadlineExceeded, error.StatusCode);
         Assert.True(answered < TimeSpan.FromSeconds(deadlineSeconds + 1), $"answered at {answered}");
         Assert.True(runs.Count == 0 && stoppedAfterDeadline < TimeSpan.FromSeconds(1), $"the computation ran on {stoppedAfterDeadline} after the deadline");
-        Assert.True(after < baseline + (32L << 20), $"managed memory {after / 1048576.0:F0} MiB after, {baseline / 1048576.0:F0} MiB before");
+        Assert.True(after < baseline + RetainedLimit, $"managed memory {after / 1048576.0:F0} MiB after, {baseline / 1048576.0:F0} MiB before");
     }
 
     /// <summary>Seconds from the call's start to its end; progress stages as they first appear.</summary>
