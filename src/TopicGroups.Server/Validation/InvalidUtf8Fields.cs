@@ -1,5 +1,6 @@
 using System.Buffers;
 using System.Text.Unicode;
+using Google.Protobuf;
 using Google.Protobuf.Reflection;
 
 namespace TopicGroups.Server.Validation;
@@ -28,11 +29,6 @@ internal static class InvalidUtf8Fields
     // The protobuf parser's own default recursion limit; deeper nesting is not walked.
     private const int MaxDepth = 100;
 
-    private const int WireVarint = 0;
-    private const int WireFixed64 = 1;
-    private const int WireLengthDelimited = 2;
-    private const int WireFixed32 = 5;
-
     /// <summary>
     /// The string fields of <paramref name="message"/> that are not UTF-8, in wire order, at most
     /// <paramref name="limit"/>. Stops quietly at the first malformed byte it cannot step over.
@@ -59,24 +55,23 @@ internal static class InvalidUtf8Fields
                 return false;
             }
 
-            int wireType = (int)(tag & 7);
             ulong fieldNumber = tag >> 3;
-            switch (wireType)
+            switch ((WireFormat.WireType)(tag & 7))
             {
-                case WireVarint:
+                case WireFormat.WireType.Varint:
                     if (!TryReadVarint(message, ref position, out _))
                     {
                         return false;
                     }
 
                     break;
-                case WireFixed64:
+                case WireFormat.WireType.Fixed64:
                     position += 8;
                     break;
-                case WireFixed32:
+                case WireFormat.WireType.Fixed32:
                     position += 4;
                     break;
-                case WireLengthDelimited:
+                case WireFormat.WireType.LengthDelimited:
                     if (!TryReadVarint(message, ref position, out ulong length) || length > (ulong)(message.Length - position))
                     {
                         return false;
